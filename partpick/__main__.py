@@ -1,0 +1,5 @@
+"""``python -m partpick`` runs the command line."""
+
+from partpick.cli import main
+
+raise SystemExit(main())

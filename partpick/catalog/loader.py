@@ -1,0 +1,388 @@
+"""Read a catalogue folder into typed pandas DataFrames, or report every problem.
+
+The reader keeps each record's physical line number, so a problem is always
+named as ``file:line: column: reason``. Nothing is chosen from an invalid
+catalogue: :func:`load_catalog` raises :class:`~partpick.errors.InputError`
+carrying every problem of every file at once.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import math
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+import pandas as pd
+from pydantic import ValidationError
+
+from partpick.catalog.rows import FILES, Row
+from partpick.errors import InputError, Problem
+
+#: Largest catalogue file read [bytes]; larger files are refused, not loaded.
+MAX_FILE_BYTES = 256 * 1024 * 1024
+#: Largest cell [characters].
+MAX_CELL_CHARS = 4096
+
+PART_FILES = ("transistors.csv", "opamps.csv", "regulators.csv", "heatsinks.csv", "diodes.csv")
+
+
+@dataclass
+class Catalog:
+    """A validated catalogue: one DataFrame per category, columns as in the CSV files.
+
+    Every frame carries ``line``, the physical line of the row in its file.
+    ``transistors`` also carries ``soa_v`` and ``soa_a`` (tuples of the parsed
+    DC SOA breakpoints, empty when none were given).
+    """
+
+    folder: str
+    transistors: pd.DataFrame
+    opamps: pd.DataFrame
+    regulators: pd.DataFrame
+    heatsinks: pd.DataFrame
+    passives: pd.DataFrame
+    diodes: pd.DataFrame
+    suppliers: pd.DataFrame
+    offers: pd.DataFrame
+    file_sha256: dict[str, str] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+
+    @property
+    def currency(self) -> str:
+        return str(self.suppliers["currency"].iloc[0]) if len(self.suppliers) else ""
+
+
+def demo_catalog_dir() -> Path:
+    """The demo catalogue shipped inside the package."""
+    return Path(str(resources.files("partpick") / "data" / "catalog"))
+
+
+def default_catalog_dir() -> Path:
+    """``./catalog`` when it exists, else the shipped demo catalogue (formats.md)."""
+    local = Path("catalog")
+    return local if local.is_dir() else demo_catalog_dir()
+
+
+def load_catalog(folder: str | Path) -> Catalog:
+    """Load and validate every file of a catalogue folder.
+
+    Raises
+    ------
+    InputError
+        Listing every problem found, each with file, line, column and reason.
+    """
+    folder = Path(folder)
+    problems: list[Problem] = []
+    if not folder.is_dir():
+        raise InputError([Problem(str(folder), 0, "", "catalogue folder not found")])
+    frames: dict[str, pd.DataFrame] = {}
+    hashes: dict[str, str] = {}
+    for name, model in FILES.items():
+        path = folder / name
+        rows, file_problems, digest = _read_file(path, model)
+        problems.extend(file_problems)
+        hashes[name] = digest
+        frames[name] = _frame(rows, model)
+    if problems:
+        # Cross-file checks on half-read files would only add noise.
+        raise InputError(problems)
+    warnings: list[str] = []
+    problems.extend(_cross_checks(folder, frames, warnings))
+    if problems:
+        raise InputError(problems)
+    _attach_soa(frames["transistors.csv"])
+    return Catalog(
+        folder=str(folder),
+        transistors=frames["transistors.csv"],
+        opamps=frames["opamps.csv"],
+        regulators=frames["regulators.csv"],
+        heatsinks=frames["heatsinks.csv"],
+        passives=frames["passives.csv"],
+        diodes=frames["diodes.csv"],
+        suppliers=frames["suppliers.csv"],
+        offers=frames["offers.csv"],
+        file_sha256=hashes,
+        warnings=warnings,
+    )
+
+
+# --------------------------------------------------------------------------- reading
+
+
+def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple[int, Row]], list[Problem], str]:
+    label = str(path)
+    if not path.is_file():
+        return [], [Problem(label, 0, "", "file is missing")], ""
+    size = path.stat().st_size
+    if size > MAX_FILE_BYTES:
+        reason = f"file is {size / 2**20:.0f} MiB; partpick reads at most {MAX_FILE_BYTES // 2**20} MiB"
+        return [], [Problem(label, 0, "", reason)], ""
+    raw = path.read_bytes()
+    digest = hashlib.sha256(raw).hexdigest()
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        return [], [Problem(label, line, "", f"not UTF-8 text (byte 0x{raw[exc.start]:02x})")], digest
+    if "\x00" in text:
+        line = text[: text.index("\x00")].count("\n") + 1
+        return [], [Problem(label, line, "", "contains a NUL character: not a text file")], digest
+    records = list(_records(text))
+    if not records:
+        return [], [Problem(label, 0, "", "file is empty: a header row is required")], digest
+    header_line, header = records[0]
+    if isinstance(header, str):
+        return [], [Problem(label, header_line, "", header)], digest
+    header = [h.strip() for h in header]
+    problems = _header_problems(label, header_line, header, model)
+    if problems:
+        return [], problems, digest
+    rows: list[tuple[int, Row]] = []
+    for line, cells in records[1:]:
+        if isinstance(cells, str):
+            problems.append(Problem(label, line, "", cells))
+            continue
+        if len(cells) != len(header):
+            problems.append(
+                Problem(label, line, "", f"has {len(cells)} cells, the header has {len(header)}")
+            )
+            continue
+        long_cells = [h for h, c in zip(header, cells) if len(c) > MAX_CELL_CHARS]
+        if long_cells:
+            problems.extend(
+                Problem(label, line, h, f"cell longer than {MAX_CELL_CHARS} characters")
+                for h in long_cells
+            )
+            continue
+        record = dict(zip(header, cells))
+        try:
+            rows.append((line, model.model_validate(record)))
+        except ValidationError as exc:
+            problems.extend(_validation_problems(label, line, record, exc, model))
+    return rows, problems, digest
+
+
+def _records(text: str) -> Iterator[tuple[int, list[str] | str]]:
+    """CSV records with their physical line; ``#`` lines and blank lines skipped.
+
+    A record the CSV reader cannot parse comes as its error message (a str).
+    """
+    state = {"line": 0}
+
+    def lines() -> Iterator[str]:
+        for number, line in enumerate(text.splitlines(), start=1):
+            if not line.strip() or line.lstrip().startswith("#"):
+                continue
+            state["line"] = number
+            yield line
+
+    reader = csv.reader(lines(), strict=True)
+    while True:
+        try:
+            cells = next(reader)
+        except StopIteration:
+            return
+        except csv.Error as exc:
+            yield state["line"], f"unreadable CSV: {exc}"
+            continue
+        yield state["line"], cells
+
+
+def _header_problems(label: str, line: int, header: list[str], model: type[Row]) -> list[Problem]:
+    if len(header) == 1 and ";" in header[0]:
+        return [
+            Problem(
+                label,
+                line,
+                "",
+                "looks semicolon-separated; partpick reads comma-separated files "
+                "(save the sheet as CSV with ',' as the separator)",
+            )
+        ]
+    problems = []
+    seen: set[str] = set()
+    for name in header:
+        if name in seen:
+            problems.append(Problem(label, line, name, "column appears twice in the header"))
+        seen.add(name)
+    for name, info in model.model_fields.items():
+        if info.is_required() and name not in seen:
+            problems.append(Problem(label, line, name, "required column is missing"))
+    return problems
+
+
+def _validation_problems(
+    label: str, line: int, record: dict[str, str], exc: ValidationError, model: type[Row]
+) -> list[Problem]:
+    out = []
+    for err in exc.errors():
+        column = str(err["loc"][0]) if err["loc"] else ""
+        cell = record.get(column, "")
+        if err["type"] == "missing" or (not str(cell).strip() and column in model.model_fields):
+            reason = "required value is missing"
+        else:
+            reason = _clean_message(err)
+        out.append(Problem(label, line, column, reason))
+    return out
+
+
+def _clean_message(err: dict) -> str:
+    msg = str(err["msg"])
+    for prefix in ("Value error, ", "Assertion failed, "):
+        if msg.startswith(prefix):
+            msg = msg[len(prefix) :]
+    if err["type"] == "literal_error":
+        msg = f"'{err['input']}' is not allowed: {msg[0].lower()}{msg[1:]}"
+    return msg
+
+
+def _frame(rows: list[tuple[int, Row]], model: type[Row]) -> pd.DataFrame:
+    columns = ["line", *model.model_fields]
+    data = [{"line": line, **row.model_dump()} for line, row in rows]
+    frame = pd.DataFrame(data, columns=columns)
+    for name, info in model.model_fields.items():
+        if info.annotation in (float,) or "float" in str(info.annotation):
+            frame[name] = pd.to_numeric(frame[name], errors="coerce").astype(float)
+    return frame
+
+
+# --------------------------------------------------------------------------- cross-file checks
+
+
+def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[str]) -> list[Problem]:
+    problems: list[Problem] = []
+    path = {name: str(folder / name) for name in frames}
+
+    # One mpn space across all part files and passive families.
+    first_seen: dict[str, str] = {}
+    for name in (*PART_FILES, "passives.csv"):
+        key = "family" if name == "passives.csv" else "mpn"
+        for line, mpn in zip(frames[name]["line"], frames[name][key]):
+            if mpn in first_seen:
+                problems.append(
+                    Problem(path[name], int(line), key, f"'{mpn}' already used in {first_seen[mpn]}")
+                )
+            else:
+                first_seen[mpn] = f"{name} line {line}"
+
+    problems.extend(_transistor_checks(path["transistors.csv"], frames["transistors.csv"]))
+    problems.extend(_range_checks(path, frames))
+
+    sup = frames["suppliers.csv"]
+    seen_sup: set[str] = set()
+    for line, s in zip(sup["line"], sup["supplier"]):
+        if s in seen_sup:
+            problems.append(Problem(path["suppliers.csv"], int(line), "supplier", f"'{s}' listed twice"))
+        seen_sup.add(s)
+    currencies = sorted(set(sup["currency"]))
+    if len(currencies) > 1:
+        line = int(sup.loc[sup["currency"] != sup["currency"].iloc[0], "line"].iloc[0])
+        problems.append(
+            Problem(
+                path["suppliers.csv"],
+                line,
+                "currency",
+                f"suppliers use several currencies ({', '.join(currencies)}); one run needs one",
+            )
+        )
+    if sup.empty:
+        problems.append(Problem(path["suppliers.csv"], 0, "", "no supplier listed"))
+
+    off = frames["offers.csv"]
+    seen_break: set[tuple[str, str, int]] = set()
+    for line, mpn, s, q in zip(off["line"], off["mpn"], off["supplier"], off["min_qty"]):
+        if mpn not in first_seen:
+            problems.append(Problem(path["offers.csv"], int(line), "mpn", f"unknown part or family '{mpn}'"))
+        if s not in seen_sup:
+            problems.append(Problem(path["offers.csv"], int(line), "supplier", f"unknown supplier '{s}'"))
+        key = (mpn, s, int(q))
+        if key in seen_break:
+            problems.append(
+                Problem(path["offers.csv"], int(line), "min_qty", f"price break {q} of '{mpn}' at '{s}' listed twice")
+            )
+        seen_break.add(key)
+
+    offered = set(off["mpn"])
+    for name in (*PART_FILES, "passives.csv"):
+        key = "family" if name == "passives.csv" else "mpn"
+        missing = [m for m in frames[name][key] if m not in offered]
+        if missing:
+            warnings.append(f"{name}: no offer for {', '.join(missing)}: these cannot be chosen")
+    no_soa = frames["transistors.csv"].loc[frames["transistors.csv"]["soa_dc"].isna(), "mpn"]
+    if len(no_soa):
+        warnings.append(
+            "transistors.csv: no second-breakdown data (soa_dc) for "
+            f"{', '.join(no_soa)}: their SOA is the Ic/Pd/Vceo boundary only"
+        )
+    return problems
+
+
+def _transistor_checks(label: str, tr: pd.DataFrame) -> list[Problem]:
+    from partpick.model.soa import parse_soa_dc
+
+    problems = []
+    polarity = dict(zip(tr["mpn"], tr["polarity"]))
+    for row in tr.itertuples(index=False):
+        line = int(row.line)
+        if isinstance(row.complement, str):
+            if row.complement not in polarity:
+                problems.append(Problem(label, line, "complement", f"unknown transistor '{row.complement}'"))
+            elif polarity[row.complement] == row.polarity:
+                problems.append(
+                    Problem(label, line, "complement", f"'{row.complement}' is also {row.polarity}, not its complement")
+                )
+        if row.vce_sat_v >= row.vceo_v:
+            problems.append(Problem(label, line, "vce_sat_v", "is not below vceo_v"))
+        if row.tj_max_c <= 25.0:
+            problems.append(Problem(label, line, "tj_max_c", "must be above 25 degC"))
+        if isinstance(row.soa_dc, str):
+            try:
+                volts, amps = parse_soa_dc(row.soa_dc)
+            except ValueError as exc:
+                problems.append(Problem(label, line, "soa_dc", str(exc)))
+                continue
+            if volts[-1] > row.vceo_v * (1 + 1e-9):
+                problems.append(Problem(label, line, "soa_dc", f"goes beyond vceo_v ({row.vceo_v:g} V)"))
+    return problems
+
+
+def _range_checks(path: dict[str, str], frames: dict[str, pd.DataFrame]) -> list[Problem]:
+    problems = []
+    for row in frames["opamps.csv"].itertuples(index=False):
+        if row.supply_min_v >= row.supply_max_v:
+            problems.append(Problem(path["opamps.csv"], int(row.line), "supply_max_v", "is not above supply_min_v"))
+    for row in frames["regulators.csv"].itertuples(index=False):
+        if row.kind == "fixed" and _missing(row.vout_v):
+            problems.append(Problem(path["regulators.csv"], int(row.line), "vout_v", "a fixed regulator needs vout_v"))
+        if row.kind == "adjustable" and _missing(row.vref_v):
+            problems.append(
+                Problem(path["regulators.csv"], int(row.line), "vref_v", "an adjustable regulator needs vref_v")
+            )
+    for row in frames["passives.csv"].itertuples(index=False):
+        label, line = path["passives.csv"], int(row.line)
+        if row.value_min > row.value_max:
+            problems.append(Problem(label, line, "value_max", "is below value_min"))
+        if row.kind == "resistor" and _missing(row.power_w):
+            problems.append(Problem(label, line, "power_w", "a resistor family needs power_w"))
+        if row.kind != "resistor" and _missing(row.voltage_v):
+            problems.append(Problem(label, line, "voltage_v", "a capacitor family needs voltage_v"))
+    for row in frames["heatsinks.csv"].itertuples(index=False):
+        if not [p for p in row.packages.split(";") if p.strip()]:
+            problems.append(Problem(path["heatsinks.csv"], int(row.line), "packages", "names no package"))
+    return problems
+
+
+def _missing(x: object) -> bool:
+    return x is None or (isinstance(x, float) and math.isnan(x))
+
+
+def _attach_soa(tr: pd.DataFrame) -> None:
+    from partpick.model.soa import parse_soa_dc
+
+    parsed = [parse_soa_dc(s) if isinstance(s, str) else ((), ()) for s in tr["soa_dc"]]
+    tr["soa_v"] = [tuple(float(v) for v in p[0]) for p in parsed]
+    tr["soa_a"] = [tuple(float(a) for a in p[1]) for p in parsed]

@@ -1,0 +1,123 @@
+"""Command line: argument parsing only; the work is done by the layers below.
+
+Exit codes: 0 success, 2 bad command line, 3 invalid input files (every
+problem listed), 4 no feasible design. Heavy modules (the solver, plotting)
+are imported inside the commands that need them, so ``--help`` and
+``catalog-check`` start fast.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from pathlib import Path
+
+from partpick import __version__
+from partpick.errors import InputError, UsageError
+
+EXIT_OK, EXIT_USAGE, EXIT_INPUT, EXIT_INFEASIBLE = 0, 2, 3, 4
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="partpick",
+        description="Pick a safe, buildable and cheapest parts list for a discrete "
+        "class-AB audio power amplifier, and the order to buy it.",
+    )
+    p.add_argument("--version", action="version", version=f"partpick {__version__}")
+    p.add_argument("--no-color", action="store_true", help="plain text output")
+    p.add_argument("--quiet", action="store_true", help="print only errors and the total")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    d = sub.add_parser("design", help="choose every part and the cheapest order for a spec")
+    _design_args(d)
+
+    sub.add_parser("demo", help="design the first shipped example on the shipped demo catalogue")
+
+    c = sub.add_parser("catalog-check", help="validate a catalogue folder and summarise it")
+    c.add_argument("folder", nargs="?", help="catalogue folder (default ./catalog, else the demo)")
+
+    w = sub.add_parser("why", help="why a part was not chosen, or what forcing it would cost")
+    w.add_argument("mpn")
+    w.add_argument("spec")
+    w.add_argument("--catalog", metavar="DIR")
+    w.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
+
+    e = sub.add_parser("evaluate", help="the full check of a hand-picked selection")
+    e.add_argument("spec")
+    e.add_argument("--part", action="append", default=[], metavar="ROLE=MPN", required=True)
+    e.add_argument("--catalog", metavar="DIR")
+    e.add_argument("--json", metavar="FILE")
+    return p
+
+
+def _design_args(d: argparse.ArgumentParser) -> None:
+    d.add_argument("spec", help="the amplifier spec (TOML)")
+    d.add_argument("--catalog", metavar="DIR")
+    d.add_argument("--json", metavar="FILE", help="write the JSON report")
+    d.add_argument("--bom", metavar="FILE", help="write the order as CSV")
+    d.add_argument("--plots", metavar="DIR", help="write SOA and thermal pictures")
+    d.add_argument("--objective", choices=("cost", "lines"))
+    d.add_argument("--exclude", nargs="+", default=[], metavar="MPN")
+    d.add_argument("--previous", metavar="REPORT.json")
+    d.add_argument("--keep-footprints", action="store_true")
+    d.add_argument("--alternatives", type=int, default=0, metavar="N")
+    d.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    if args.command is None:
+        _parser().print_help()
+        return EXIT_USAGE
+    from partpick.report.console import make_console
+
+    console = make_console(no_color=args.no_color, quiet=args.quiet)
+    try:
+        return _dispatch(args, console)
+    except InputError as exc:
+        console.print_problems(exc.problems)
+        return EXIT_INPUT
+    except UsageError as exc:
+        console.error(str(exc))
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        console.error("interrupted; no output file was written")
+        return 130
+    except Exception as exc:  # noqa: BLE001 - the user sees a message, not a traceback
+        if os.environ.get("PARTPICK_DEBUG"):
+            raise
+        console.error(f"internal error: {type(exc).__name__}: {exc} (set PARTPICK_DEBUG=1 for details)")
+        return 1
+
+
+def _dispatch(args: argparse.Namespace, console) -> int:
+    if args.command == "catalog-check":
+        from partpick.catalog import default_catalog_dir, load_catalog
+        from partpick.report.console import print_catalog_summary
+
+        folder = Path(args.folder) if args.folder else default_catalog_dir()
+        print_catalog_summary(console, load_catalog(folder))
+        return EXIT_OK
+    if args.command == "demo":
+        from partpick.commands import run_demo
+
+        return run_demo(console)
+    if args.command == "design":
+        from partpick.commands import run_design
+
+        return run_design(args, console)
+    if args.command == "evaluate":
+        from partpick.commands import run_evaluate
+
+        return run_evaluate(args, console)
+    if args.command == "why":
+        from partpick.commands import run_why
+
+        return run_why(args, console)
+    raise UsageError(f"unknown command {args.command}")  # pragma: no cover
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

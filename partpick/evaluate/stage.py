@@ -1,0 +1,546 @@
+"""The output stage as configurations k = (rail option, output pair, Re value, bias feed).
+
+Every configuration carries the numbers the other roles must meet (the
+coupling attributes of the optimiser), its margins, and, when it fails, the
+first failing constraint in the order of model sections 3, 5, 6, 7, 10
+(model s.13). Everything is computed on whole arrays; there is no Python loop
+over catalogue rows, only over the few rail options, resistor families and
+heatsink mounting classes.
+
+Conservative readings chosen where the model leaves a choice (also in the
+issue notes):
+
+- The load line ignores the drop across Re (Vce = Vs - v), which slightly
+  overstates Vce.
+- The bias-resistor power and its standing current use the lowest forward
+  drop of the catalogue's bias diodes (most voltage across R1).
+- The standing current a configuration reports (for the bias-diode rating and
+  the regulator's heat) is the largest that any usable resistor family would
+  give it.
+- Capacitor voltage ratings are checked against the unregulated ``v_max`` even
+  when a pre-regulator lowers the supply.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from partpick.evaluate.context import Pool, Targets, quiescent_a
+from partpick.model import bias, dissipation, eseries, regulator, soa, swing, thermal
+from partpick.model.defaults import (
+    BASE_DRIVE_MARGIN,
+    CCS_COMPLIANCE_V,
+    CCS_REFERENCE_CURRENT_A,
+    DIODE_DROP_V,
+    DVBE_DT_V_K,
+    LOOP_GAIN_MAX,
+    RE_MAX_OHM,
+    RE_MIN_OHM,
+    RESISTOR_POWER_MARGIN,
+    VCEO_MARGIN,
+)
+from partpick.spec import Spec
+
+#: Smallest current a current-source feed is designed for [A] (common practice:
+#: a few mA keeps the bias string's diodes conducting).
+CCS_MIN_CURRENT_A = 0.005
+#: Smallest voltage across the current-source emitter resistor [V] (common
+#: practice: below a few hundred mV the current follows Vbe's spread).
+CCS_MIN_RE_DROP_V = 0.3
+#: Largest Ic rating of a pair considered for the current sources [A]: small-signal
+#: and driver transistors, not output devices (common practice).
+CCS_MAX_IC_A = 2.0
+
+
+@dataclass
+class StageTable:
+    """Feasible stage configurations and their coupling attributes.
+
+    ``configs``: one row per feasible configuration k. ``rth_sa_max``: array
+    [k, c] of the largest heatsink rating each configuration tolerates with
+    Rth_cs class c (``rth_cs_classes[c]``). ``feed_options``: the bias-feed
+    resistor lines per configuration. ``funnel``: constraint -> candidates it
+    removed. ``rejected``: every infeasible candidate with ``rejected_by``.
+    """
+
+    configs: pd.DataFrame
+    rth_sa_max: np.ndarray
+    rth_cs_classes: list[float]
+    feed_options: pd.DataFrame
+    re_options: pd.DataFrame
+    rails: pd.DataFrame
+    pairs: pd.DataFrame
+    funnel: dict[str, int]
+    rejected: pd.DataFrame
+    considered: int
+
+
+# --------------------------------------------------------------------------- rails
+
+
+def rail_options(spec: Spec, pool: Pool, targets: Targets) -> tuple[pd.DataFrame, dict[str, int]]:
+    """Unregulated rail and, for ``single`` with a pre-regulator allowed, every regulator set point.
+
+    Columns: rail_min_v, rail_max_v (the per-half Vs), span_min_v, span_max_v
+    (the op-amp's total supply), regulated, reg_mpn, reg_family, reg_r1_ohm,
+    reg_r2_ohm, vout_v, reg_rth_ja_k_w, reg_tj_limit_c. Returns the options and
+    the regulator funnel.
+    """
+    sup = spec.supply
+    half = 0.5 if sup.arrangement == "single" else 1.0
+    rows = []
+    if sup.regulate != "always":
+        rows.append(
+            dict(
+                rail_min_v=sup.v_min * half, rail_max_v=sup.v_max * half,
+                span_min_v=2 * sup.v_min * half, span_max_v=2 * sup.v_max * half,
+                regulated=False, reg_mpn=None, reg_family=None, reg_r1_ohm=np.nan,
+                reg_r2_ohm=np.nan, vout_v=np.nan, reg_rth_ja_k_w=np.nan, reg_tj_limit_c=np.nan,
+            )
+        )
+    funnel: dict[str, int] = {}
+    if sup.arrangement == "single" and sup.regulate != "never":
+        rows += _regulated_rails(spec, pool, targets, funnel)
+    return pd.DataFrame(rows), funnel
+
+
+def _regulated_rails(spec: Spec, pool: Pool, targets: Targets, funnel: dict[str, int]) -> list[dict]:
+    sup = spec.supply
+    regs = pool.regulators
+    i_pk = regulator.regulator_current_peak_a(targets.channels, targets.i_peak_a)
+    checks = {
+        "regulator input rating (vin_max_v)": regulator.vin_max_margin_v(regs["vin_max_v"], sup.v_max) >= 0,
+        "regulator peak current (iout_max_a)": regulator.regulator_current_margin_a(regs["iout_max_a"], i_pk) >= 0,
+    }
+    ok = np.ones(len(regs), dtype=bool)
+    for name, passed in checks.items():
+        funnel[name] = int((ok & ~np.asarray(passed)).sum())
+        ok &= np.asarray(passed)
+    set_families = pool.passives[
+        (pool.passives["kind"] == "resistor") & pool.passives["series"].isin(["E24", "E48", "E96", "E192"])
+    ]
+    lowest = 2.0 * targets.v_peak_v  # no rail below the signal peak can pass section 3
+    rows = []
+    n_dropout = 0
+    for reg in regs[ok].itertuples(index=False):
+        top = sup.v_min - reg.dropout_v
+        common = dict(
+            regulated=True, reg_mpn=reg.mpn, reg_rth_ja_k_w=reg.rth_ja_k_w,
+            reg_tj_limit_c=reg.tj_max_c - spec.thermal.tj_derate_c,
+        )
+        if reg.kind == "fixed":
+            if reg.vout_v > top:
+                n_dropout += 1
+                continue
+            rows.append(_rail_row(reg.vout_v, reg_family=None, r1=np.nan, r2=np.nan, **common))
+            continue
+        grid = regulator.set_point_grid_v(max(lowest, reg.vref_v), top)
+        if grid.size == 0:
+            n_dropout += 1
+            continue
+        iadj = 0.0 if math.isnan(reg.iadj_a) else reg.iadj_a
+        for fam in set_families.itertuples(index=False):
+            r1, r2, vout, _ = regulator.set_pair(grid, reg.vref_v, iadj, fam.series)
+            r1, r2, vout = np.atleast_1d(r1), np.atleast_1d(r2), np.atleast_1d(vout)
+            fits = (vout <= top + 1e-9) & (r2 <= fam.value_max) & (r1 >= fam.value_min) & (r2 >= fam.value_min)
+            seen: set[float] = set()
+            for a, b, v in zip(r1[fits], r2[fits], vout[fits]):
+                key = round(float(v), 6)
+                if key in seen:
+                    continue
+                seen.add(key)
+                rows.append(_rail_row(float(v), reg_family=fam.family, r1=float(a), r2=float(b), **common))
+    funnel["regulator dropout at v_min"] = n_dropout
+    return rows
+
+
+def _rail_row(vout: float, reg_family, r1: float, r2: float, **common) -> dict:
+    return dict(
+        rail_min_v=vout / 2.0, rail_max_v=vout / 2.0, span_min_v=vout, span_max_v=vout,
+        reg_family=reg_family, reg_r1_ohm=r1, reg_r2_ohm=r2, vout_v=vout, **common,
+    )
+
+
+# --------------------------------------------------------------------------- pairs
+
+
+def pair_options(pool: Pool, pairing: str) -> pd.DataFrame:
+    """NPN/PNP pairs: listed complements (either direction), or any two of one package."""
+    tr = pool.transistors
+    npn = tr[tr["polarity"] == "npn"]
+    pnp = tr[tr["polarity"] == "pnp"]
+    if pairing == "any":
+        pairs = npn.reset_index().merge(pnp.reset_index(), on="package", suffixes=("_n", "_p"))
+    else:
+        a = npn.reset_index().merge(
+            pnp.reset_index(), left_on="complement", right_on="mpn", suffixes=("_n", "_p")
+        )
+        b = npn.reset_index().merge(
+            pnp.reset_index(), left_on="mpn", right_on="complement", suffixes=("_n", "_p")
+        )
+        pairs = pd.concat([a, b]).drop_duplicates(subset=["mpn_n", "mpn_p"])
+        pairs = pairs[pairs["package_n"] == pairs["package_p"]].rename(columns={"package_n": "package"})
+    pairs = pairs.rename(columns={"index_n": "npn_i", "index_p": "pnp_i"})
+    pairs = pairs.sort_values(["mpn_n", "mpn_p"]).reset_index(drop=True)
+    return pairs
+
+
+def _pair_worst(pairs: pd.DataFrame, targets: Targets) -> dict[str, np.ndarray]:
+    ip = targets.i_peak_a
+    both = lambda f: np.minimum(f("_n"), f("_p"))  # noqa: E731
+    worst = lambda f: np.maximum(f("_n"), f("_p"))  # noqa: E731
+    col = lambda name: (lambda s: pairs[name + s].to_numpy(float))  # noqa: E731
+    return dict(
+        vce_sat_v=worst(lambda s: swing.vce_sat_at_v(col("vce_sat_v")(s), col("vce_sat_at_a")(s), ip)),
+        vbe_v=worst(lambda s: swing.vbe_at_v(col("vbe_on_v")(s), col("vbe_on_at_a")(s), ip)),
+        hfe=both(lambda s: swing.hfe_at(col("hfe_min")(s), col("hfe_at_a")(s), ip)),
+        vceo_v=both(col("vceo_v")),
+        ic_max_a=both(col("ic_max_a")),
+        hfe_at_a=both(col("hfe_at_a")),
+    )
+
+
+def _soa_utilisation(pool: Pool, pairs: pd.DataFrame, rails: pd.DataFrame, spec: Spec, targets: Targets) -> np.ndarray:
+    """Largest Ic / I_soa,25C over the load line (and the short-circuit point), [pair, rail].
+
+    The SOA margin at case temperature Tc is 1 - u / derating(Tc), so the stage
+    passes at every Tc with derating(Tc) >= u (model s.5).
+    """
+    tr = pool.transistors
+    bp_v, bp_a = soa.pad_curves([(np.array(v), np.array(a)) if len(v) else None for v, a in zip(tr["soa_v"], tr["soa_a"])])
+    rail = rails["rail_max_v"].to_numpy(float)
+    vce, ic = soa.load_line(rail, targets.v_peak_v, targets.i_peak_a, targets.phase_rad)  # [R, S]
+    if spec.output.short_circuit:
+        vce = np.concatenate([vce, rail[:, None]], axis=1)
+        ic = np.concatenate([ic, np.full((len(rail), 1), targets.i_peak_a)], axis=1)
+    # Limit for every device at every rail's samples: [D, R, S].
+    limit = soa.soa_current_limit_a(
+        np.broadcast_to(vce, (len(tr),) + vce.shape),
+        bp_v, bp_a, tr["ic_max_a"].to_numpy(float), tr["pd_max_w"].to_numpy(float), tr["vceo_v"].to_numpy(float),
+    )
+    util = np.max(np.where(ic > 0, ic / np.maximum(limit, 1e-12), 0.0), axis=-1)  # [D, R]
+    return np.maximum(util[pairs["npn_i"].to_numpy()], util[pairs["pnp_i"].to_numpy()])
+
+
+# --------------------------------------------------------------------------- Re
+
+
+def re_options(pool: Pool, targets: Targets) -> pd.DataFrame:
+    """(family, Re value) options: low-ohm resistor values in 0.1..1 ohm rated for 2 x P_Re."""
+    rows = []
+    for fam in pool.passives[pool.passives["kind"] == "resistor"].itertuples(index=False):
+        lo, hi = max(RE_MIN_OHM, fam.value_min), min(RE_MAX_OHM, fam.value_max)
+        if lo > hi * (1 + 1e-9):
+            continue
+        values = eseries.series_values(fam.series, lo, hi)
+        p = bias.re_power_w(targets.i_peak_a, values)
+        for v, pw in zip(values, np.atleast_1d(p)):
+            if fam.power_w >= RESISTOR_POWER_MARGIN * pw:
+                rows.append(dict(family=fam.family, value_ohm=float(v), power_w=float(pw), rating_w=fam.power_w))
+    return pd.DataFrame(rows, columns=["family", "value_ohm", "power_w", "rating_w"])
+
+
+# --------------------------------------------------------------------------- the table
+
+
+FIRST_FAIL_ORDER = (
+    "transistor headroom (s.3)",
+    "driver reach (s.3)",
+    "bias feed (s.3)",
+    "Vceo breakdown (s.5)",
+    "Ic max (s.5)",
+    "SOA (s.5)",
+    "thermal: no heatsink can hold Tj, SOA and loop gain (s.6, s.7)",
+    "regulator heat (s.10)",
+)
+
+
+def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
+    """Every stage configuration with its margins; the feasible ones with coupling numbers."""
+    rails, reg_funnel = rail_options(spec, pool, targets)
+    pairs = pair_options(pool, spec.output.pairing)
+    res = re_options(pool, targets)
+    re_values = np.unique(res["value_ohm"].to_numpy(float)) if len(res) else np.array([])
+    n_r, n_p, n_e = len(rails), len(pairs), len(re_values)
+    funnel = {f"regulator: {k}": v for k, v in reg_funnel.items()}
+    if n_r * n_p * n_e == 0:
+        return _empty(rails, pairs, res, funnel, n_r * n_p * n_e)
+
+    # Core grid: rail x pair x Re, flattened.
+    ri, pi_, ei = (g.ravel() for g in np.meshgrid(np.arange(n_r), np.arange(n_p), np.arange(n_e), indexing="ij"))
+    w = _pair_worst(pairs, targets)
+    vp, ip = targets.v_peak_v, targets.i_peak_a
+    rail_min = rails["rail_min_v"].to_numpy(float)[ri]
+    rail_max = rails["rail_max_v"].to_numpy(float)[ri]
+    span_max = rails["span_max_v"].to_numpy(float)[ri]
+    re = re_values[ei]
+    iq = quiescent_a(spec, re)
+    vd_min = float(pool.diodes.loc[pool.diodes["kind"] == "diode", "vf_v"].min()) if (pool.diodes["kind"] == "diode").any() else DIODE_DROP_V
+
+    head = swing.transistor_headroom_margin_v(rail_min, vp, ip, re, w["vce_sat_v"][pi_])
+    base_pk = swing.base_voltage_peak_v(vp, ip, re, w["vbe_v"][pi_])
+    # The op-amp must reach base_pk - Vd within its swing headroom; its best case
+    # (no headroom, the largest diode drop) is a filter here, the rest a coupling.
+    vd_max = float(pool.diodes.loc[pool.diodes["kind"] == "diode", "vf_v"].max()) if (pool.diodes["kind"] == "diode").any() else DIODE_DROP_V
+    reach = rail_min - (base_pk - vd_max)
+    ib_pk = swing.base_current_peak_a(ip, w["hfe"][pi_])
+    vceo_m = soa.vceo_margin_v(w["vceo_v"][pi_], span_max)
+    ic_m = soa.ic_max_margin_a(w["ic_max_a"][pi_], ip)
+    util = _soa_utilisation(pool, pairs, rails, spec, targets)[pi_, ri]
+
+    # Thermal: the largest Rth_sa per mounting class (model s.13).
+    n_dev = 2 * (targets.channels if spec.thermal.shared_heatsink else 1)
+    p_dev = dissipation.worst_case_device_dissipation_w(rail_max, targets.z_min_ohm, targets.phase_rad, iq)
+    classes = sorted({float(x) for x in pool.heatsinks["rth_cs_k_w"].dropna()}) + [math.nan]
+    rth_max = np.stack([_rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, c) for c in classes], axis=1)
+    thermal_ok = np.nanmax(rth_max, axis=1) > 0
+
+    core = pd.DataFrame(
+        dict(
+            rail_i=ri, pair_i=pi_, re_ohm=re, rail_min_v=rail_min, rail_max_v=rail_max,
+            span_min_v=rails["span_min_v"].to_numpy(float)[ri], span_max_v=span_max,
+            iq_a=iq, headroom_v=head, base_peak_v=base_pk, reach_v=reach, ib_peak_a=ib_pk,
+            vceo_margin_v=vceo_m, ic_margin_a=ic_m, soa_util=util, p_device_w=p_dev,
+        )
+    )
+    core_checks = {
+        "transistor headroom (s.3)": head >= 0,
+        "driver reach (s.3)": reach >= 0,
+        "Vceo breakdown (s.5)": vceo_m >= 0,
+        "Ic max (s.5)": ic_m >= 0,
+        "SOA (s.5)": util <= 1.0,
+        "thermal: no heatsink can hold Tj, SOA and loop gain (s.6, s.7)": thermal_ok,
+    }
+    core_rejected, core_ok = _first_fail(core, core_checks, funnel)
+    core = core[core_ok].reset_index(drop=True)
+    rth_max = rth_max[core_ok]
+
+    feeds = _feeds(spec, pool, targets, core, vd_min)
+    k = core.iloc[feeds["core_i"].to_numpy()].reset_index(drop=True)
+    k["feed"] = feeds["feed"].to_numpy()
+    k["ccs_n_i"] = feeds["ccs_n_i"].to_numpy()
+    k["ccs_p_i"] = feeds["ccs_p_i"].to_numpy()
+    k["ref_i"] = feeds["ref_i"].to_numpy()
+    k["ref_per_source"] = feeds["ref_per_source"].to_numpy()
+    k["standing_a"] = feeds["standing_a"].to_numpy()
+    rth_k = rth_max[feeds["core_i"].to_numpy()]
+    n_feed_fail = feeds.attrs["rejected"]
+    funnel["bias feed (s.3)"] = n_feed_fail
+
+    # Regulator heat (model s.10), when the rail comes from a regulator.
+    reg = rails.iloc[k["rail_i"].to_numpy()]
+    regulated = reg["regulated"].to_numpy(bool)
+    i_avg = regulator.regulator_current_avg_a(targets.channels, targets.i_peak_a, targets.channels * (k["iq_a"] + k["standing_a"]).to_numpy())
+    p_reg = np.where(regulated, regulator.regulator_dissipation_w(spec.supply.v_max, reg["vout_v"].to_numpy(float), i_avg), 0.0)
+    tj_reg = regulator.regulator_junction_temp_c(spec.thermal.ambient_c, p_reg, reg["reg_rth_ja_k_w"].to_numpy(float))
+    reg_margin = np.where(regulated, reg["reg_tj_limit_c"].to_numpy(float) - tj_reg, np.inf)
+    k["p_regulator_w"] = p_reg
+    k["regulator_tj_margin_c"] = reg_margin
+    ok = reg_margin >= 0
+    funnel["regulator heat (s.10)"] = int((~ok).sum())
+    k, rth_k = k[ok].reset_index(drop=True), rth_k[ok]
+    feed_opts = feeds.attrs["options"]
+    feed_opts = _remap(feed_opts, np.flatnonzero(ok))
+    k["key"] = _keys(k, rails, pairs)
+
+    rejected = core_rejected
+    return StageTable(
+        configs=k, rth_sa_max=rth_k, rth_cs_classes=classes, feed_options=feed_opts,
+        re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=rejected,
+        considered=n_r * n_p * n_e,
+    )
+
+
+def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_class) -> np.ndarray:
+    """Largest Rth_sa keeping Tj, the derated SOA and the loop gain for each device of the pair."""
+    amb = spec.thermal.ambient_c
+    out = np.full(len(pi_), np.inf)
+    for s in ("_n", "_p"):
+        tj_max = pairs["tj_max_c" + s].to_numpy(float)[pi_]
+        rth_jc = pairs["rth_jc_k_w" + s].to_numpy(float)[pi_]
+        package = pairs["package"].to_numpy()[pi_]
+        rth_cs = np.asarray(thermal.rth_cs_default_k_w(package), float) if math.isnan(rth_cs_class) else np.full(len(pi_), rth_cs_class)
+        p_sink = n_dev * p_dev
+        tj_lim = tj_max - spec.thermal.tj_derate_c
+        by_tj = thermal.required_rth_sa_k_w(tj_lim, amb, p_dev, rth_jc, rth_cs, p_sink)
+        tc_soa = tj_max - util * (tj_max - 25.0)
+        by_soa = np.where(util <= 1.0, (tc_soa - amb - p_dev * rth_cs) / p_sink, -np.inf)
+        limit = np.minimum(by_tj, by_soa)
+        if not spec.stage.bias_tracking:
+            re_small = 0.026 / iq
+            theta_max = LOOP_GAIN_MAX * (re + re_small) / (rail_max * DVBE_DT_V_K)
+            by_loop = (theta_max - rth_jc - rth_cs) / n_dev
+            limit = np.minimum(limit, by_loop)
+        out = np.minimum(out, limit)
+    return out
+
+
+def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float) -> pd.DataFrame:
+    """Expand core configurations by bias feed; attach the feed-resistor options.
+
+    Returns one row per (core config, feed) that some resistor family can
+    build, with ``standing_a``; ``attrs['options']`` lists the feed-resistor
+    lines (compat with the expanded rows), ``attrs['rejected']`` counts the
+    core configurations no feed can serve.
+    """
+    fams = pool.passives[pool.passives["kind"] == "resistor"].reset_index(drop=True)
+    mode = spec.stage.bias_feed
+    rows: list[pd.DataFrame] = []
+    options: list[pd.DataFrame] = []
+    n = len(core)
+    rail_min = core["rail_min_v"].to_numpy(float)
+    rail_max = core["rail_max_v"].to_numpy(float)
+    base_pk = core["base_peak_v"].to_numpy(float)
+    ib = core["ib_peak_a"].to_numpy(float)
+    offset = 0
+    if mode in ("resistor", "auto"):
+        r1_max = swing.bias_resistor_max_ohm(rail_min, base_pk, ib)
+        best_i = np.zeros(n)
+        per_fam = []
+        for f in fams.itertuples(index=False):
+            r1 = np.asarray(eseries.next_down(np.where(np.isfinite(r1_max), r1_max, f.value_max), f.series, f.value_min, f.value_max), float)
+            p = swing.bias_resistor_power_w(rail_max, vd_min, base_pk, r1)
+            fits = np.isfinite(r1) & np.isfinite(r1_max) & (f.power_w >= RESISTOR_POWER_MARGIN * p)
+            standing = np.where(fits, swing.bias_standing_current_a(rail_max, vd_min, r1), 0.0)
+            best_i = np.maximum(best_i, standing)
+            per_fam.append((f, r1, p, fits))
+        served = best_i > 0
+        idx = np.flatnonzero(served)
+        pos = -np.ones(n, dtype=int)
+        pos[idx] = offset + np.arange(len(idx))
+        rows.append(pd.DataFrame(dict(core_i=idx, feed="resistor", ccs_n_i=-1, ccs_p_i=-1, ref_i=-1, ref_per_source=0, standing_a=best_i[idx])))
+        for f, r1, p, fits in per_fam:
+            ks = np.flatnonzero(fits)
+            options.append(pd.DataFrame(dict(k=pos[ks], family=f.family, kind="bias_resistor", v1=r1[ks], v2=np.nan, p1_w=p[ks], p2_w=np.nan)))
+        offset += len(idx)
+        res_ok = served
+    else:
+        res_ok = np.zeros(n, dtype=bool)
+    ccs_ok = np.zeros(n, dtype=bool)
+    if mode in ("current_source", "auto"):
+        for part in _ccs_variants(spec, pool, targets, core, fams):
+            idx, frame, opts = part
+            frame["core_i"] = idx
+            pos = offset + np.arange(len(idx))
+            opts["k"] = pos[opts["row"].to_numpy()]
+            rows.append(frame)
+            options.append(opts.drop(columns="row"))
+            offset += len(idx)
+            ccs_ok[idx] = True
+    out = pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a"])
+    out.attrs["options"] = pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"])
+    out.attrs["rejected"] = int((~(res_ok | ccs_ok)).sum())
+    return out
+
+
+def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame):
+    """Current-source feeds (model s.3 (a')): small complementary pair x reference x resistor family."""
+    tr = pool.transistors
+    small = pair_options(pool, "complement")
+    # Small-signal and driver pairs serve as current sources; power pairs do not.
+    small = small[np.maximum(small["ic_max_a_n"], small["ic_max_a_p"]) <= CCS_MAX_IC_A].reset_index(drop=True)
+    refs = []
+    for d in pool.diodes.itertuples(index=True):
+        per = 1 if d.kind == "led" else 2
+        refs.append((d.Index, per, per * d.vf_v, d.if_max_a))
+    rail_min = core["rail_min_v"].to_numpy(float)
+    rail_max = core["rail_max_v"].to_numpy(float)
+    base_pk = core["base_peak_v"].to_numpy(float)
+    i_req = np.maximum(swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float)), CCS_MIN_CURRENT_A)
+    compliance = swing.ccs_compliance_margin_v(rail_min, base_pk) >= 0
+    span = core["span_max_v"].to_numpy(float)
+    amb = spec.thermal.ambient_c
+    for s in small.itertuples(index=False):
+        vbe = max(float(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, 0.01)), float(swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, 0.01)))
+        rth_ja = min(_rth_ja(s.rth_ja_k_w_n, s.package), _rth_ja(s.rth_ja_k_w_p, s.package))
+        tj_lim = min(s.tj_max_c_n, s.tj_max_c_p) - spec.thermal.tj_derate_c
+        vceo_ok = soa.vceo_margin_v(min(s.vceo_v_n, s.vceo_v_p), span) >= 0
+        for d_i, per, vref, if_max in refs:
+            if vref - vbe < CCS_MIN_RE_DROP_V:
+                continue
+            r_ref_ideal = swing.ccs_reference_resistor_ohm(rail_min, vref)
+            best = np.zeros(len(core))
+            opts = []
+            for f in fams.itertuples(index=False):
+                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe, i_req), f.series, f.value_min, f.value_max), float)
+                i_act = (vref - vbe) / r_e
+                r_ref = np.asarray(eseries.nearest_value(r_ref_ideal, f.series, f.value_min, f.value_max), float)
+                i_ref_max = (rail_max - vref) / r_ref
+                p_t = swing.ccs_transistor_dissipation_w(rail_max, i_act)
+                tj = swing.ccs_junction_temp_c(amb, p_t, rth_ja)
+                p_e = i_act**2 * r_e
+                p_ref = (rail_max - vref) ** 2 / r_ref
+                fits = (
+                    compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref)
+                    & (tj <= tj_lim) & (i_act <= min(s.ic_max_a_n, s.ic_max_a_p))
+                    & (i_ref_max <= if_max) & (f.power_w >= RESISTOR_POWER_MARGIN * p_e)
+                    & (f.power_w >= RESISTOR_POWER_MARGIN * p_ref)
+                )
+                best = np.maximum(best, np.where(fits, i_act, 0.0))
+                opts.append((f.family, r_e, r_ref, p_e, p_ref, fits))
+            idx = np.flatnonzero(best > 0)
+            if not len(idx):
+                continue
+            pos = -np.ones(len(core), dtype=int)
+            pos[idx] = np.arange(len(idx))
+            frame = pd.DataFrame(dict(feed="current_source", ccs_n_i=int(s.npn_i), ccs_p_i=int(s.pnp_i), ref_i=int(d_i), ref_per_source=per, standing_a=best[idx]))
+            opt_frames = []
+            for fam, r_e, r_ref, p_e, p_ref, fits in opts:
+                ks = np.flatnonzero(fits)
+                opt_frames.append(pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks])))
+            yield idx, frame, pd.concat(opt_frames, ignore_index=True)
+
+
+def _rth_ja(value: float, package: str) -> float:
+    from partpick.model.defaults import RTH_JA_FREE_AIR_K_W
+
+    if value is not None and not (isinstance(value, float) and math.isnan(value)):
+        return float(value)
+    return RTH_JA_FREE_AIR_K_W.get(package, 250.0)
+
+
+def _first_fail(frame: pd.DataFrame, checks: dict[str, np.ndarray], funnel: dict[str, int]) -> tuple[pd.DataFrame, np.ndarray]:
+    ok = np.ones(len(frame), dtype=bool)
+    first = np.full(len(frame), "", dtype=object)
+    for name in FIRST_FAIL_ORDER:
+        if name not in checks:
+            continue
+        fail = ok & ~np.asarray(checks[name], bool)
+        first[fail] = name
+        funnel[name] = int(fail.sum())
+        ok &= ~fail
+    rejected = frame[~ok].copy()
+    rejected["rejected_by"] = first[~ok]
+    return rejected, ok
+
+
+def _remap(opts: pd.DataFrame, kept: np.ndarray) -> pd.DataFrame:
+    """Renumber option compat after dropping configurations; drop options of dropped ones."""
+    new = -np.ones(int(opts["k"].max()) + 1 if len(opts) else 0, dtype=int)
+    new[kept[kept < len(new)]] = np.arange(len(kept))[kept < len(new)]
+    opts = opts.copy()
+    opts["k"] = new[opts["k"].to_numpy()] if len(opts) else opts["k"]
+    return opts[opts["k"] >= 0].reset_index(drop=True)
+
+
+def _keys(k: pd.DataFrame, rails: pd.DataFrame, pairs: pd.DataFrame) -> list[str]:
+    """Stable sort keys (ties in the optimiser go to the smallest key)."""
+    pn = pairs["mpn_n"].to_numpy()[k["pair_i"].to_numpy()]
+    pp = pairs["mpn_p"].to_numpy()[k["pair_i"].to_numpy()]
+    rv = rails["rail_min_v"].to_numpy(float)[k["rail_i"].to_numpy()]
+    return [
+        f"{a}/{b}|{r:09.4f}|{re:.4f}|{f}|{c1}|{c2}|{ri}"
+        for a, b, r, re, f, c1, c2, ri in zip(pn, pp, rv, k["re_ohm"], k["feed"], k["ccs_n_i"], k["ccs_p_i"], k["ref_i"])
+    ]
+
+
+def _empty(rails, pairs, res, funnel, considered) -> StageTable:
+    return StageTable(
+        configs=pd.DataFrame(), rth_sa_max=np.zeros((0, 1)), rth_cs_classes=[math.nan],
+        feed_options=pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"]),
+        re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=pd.DataFrame(), considered=considered,
+    )

@@ -1,0 +1,1 @@
+"""Pure engineering functions of partpick, split by physical domain (no IO)."""

@@ -1,0 +1,237 @@
+"""One design run: evaluate, assemble, solve, then check the chosen selection in full."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from partpick.catalog import Catalog
+from partpick.evaluate.context import Pool, Targets, make_pool
+from partpick.evaluate.selection import SelectionCheck, check_selection
+from partpick.evaluate.stage import StageTable, evaluate_stage
+from partpick.optimize.milp import Solution, solve
+from partpick.optimize.problem import Assembly, assemble
+from partpick.spec import Spec
+
+#: Order in which roles are listed in the BOM and numbered on the board.
+ROLE_ORDER = (
+    "output_npn", "output_pnp", "heatsink", "driver_opamp", "comp_capacitor", "bias_diode",
+    "bias_resistor", "bias_source_transistor", "bias_source_reference", "bias_source_resistor",
+    "emitter_resistor", "feedback_resistor", "gain_resistor", "input_resistor", "input_capacitor",
+    "output_capacitor", "midrail_resistor", "midrail_capacitor", "zobel_resistor", "zobel_capacitor",
+    "decoupling_capacitor", "regulator", "regulator_set_resistor",
+)
+
+
+@dataclass
+class DesignResult:
+    spec: Spec
+    pool: Pool
+    targets: Targets
+    stage: StageTable
+    assembly: Assembly | None
+    solution: Solution | None
+    check: SelectionCheck | None
+    status: str
+    warnings: list[str] = field(default_factory=list)
+
+    @property
+    def feasible(self) -> bool:
+        return self.status in ("ok", "not proven optimal")
+
+
+def run(
+    spec: Spec,
+    catalog: Catalog,
+    *,
+    exclude: tuple[str, ...] = (),
+    objective: str | None = None,
+    solver: str = "cbc",
+    spec_label: str = "spec",
+    forced: dict[str, str] | None = None,
+    time_limit: float | None = None,
+) -> DesignResult:
+    """Design ``spec`` from ``catalog``: the optimal feasible BOM and order, or why none exists.
+
+    ``forced`` maps a role (``output_npn``, ``driver_opamp``, ...) to an mpn the
+    design must use.
+    """
+    if objective:
+        spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": objective})})
+    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
+    targets = Targets.from_spec(spec)
+    stage = evaluate_stage(spec, pool, targets)
+    asm = assemble(spec, pool, targets, stage)
+    warnings = list(catalog.warnings)
+    if asm is None or asm.problem is None:
+        return DesignResult(spec, pool, targets, stage, asm, None, None, "infeasible", warnings)
+    if forced:
+        for role, mpn in forced.items():
+            if not _force(asm, role, mpn):
+                return DesignResult(spec, pool, targets, stage, asm, None, None, "infeasible", warnings)
+    sol = solve(asm.problem, solver=solver, time_limit=time_limit)
+    if sol.status == "infeasible":
+        return DesignResult(spec, pool, targets, stage, asm, sol, None, "infeasible", warnings)
+    check = check_chosen(spec, pool, targets, stage, asm, sol.choice)
+    warnings += check.warnings
+    status = "ok" if sol.status == "optimal" else "not proven optimal"
+    return DesignResult(spec, pool, targets, stage, asm, sol, check, status, warnings)
+
+
+def _force(asm: Assembly, role: str, mpn: str) -> bool:
+    """Fix a group's choice to the option that uses ``mpn`` in ``role``; False if none can."""
+    p = asm.problem
+    group = "stage" if role in ("output_npn", "output_pnp", "bias_source_transistor", "regulator") else role
+    g = p.groups.get(group)
+    if g is None:
+        return False
+    options = [i for i, usage in enumerate(g.usage) if any(src == mpn and r == role for src, _q, r in usage)]
+    if not options:
+        return False
+    if len(options) == 1:
+        p.forced[group] = options[0]
+    else:
+        # Several configurations use the part: forbid the others instead.
+        from partpick.optimize.milp import Coupling
+
+        coef = np.zeros(len(g))
+        coef[options] = 1.0
+        p.couplings.append(Coupling(f"forced {role}={mpn}", {group: coef}, ">=", 1.0))
+    return True
+
+
+def check_chosen(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, asm: Assembly, choice: dict[str, int]) -> SelectionCheck:
+    """The full selection check (second route) of the optimiser's choice."""
+    t = asm.tables
+    k = t["stage"].iloc[choice["stage"]]
+    pair = stage.pairs.iloc[int(k["pair_i"])]
+    tr = pool.transistors
+    npn = tr.iloc[int(pair["npn_i"])].to_dict()
+    pnp = tr.iloc[int(pair["pnp_i"])].to_dict()
+    rail = stage.rails.iloc[int(k["rail_i"])].to_dict()
+    if rail.get("regulated"):
+        reg = pool.regulators.set_index("mpn").loc[rail["reg_mpn"]]
+        rail.update(reg_dropout_v=float(reg["dropout_v"]), reg_vin_max_v=float(reg["vin_max_v"]), reg_iout_max_a=float(reg["iout_max_a"]))
+    re_row = t["emitter_resistor"].iloc[choice["emitter_resistor"]]
+    feed_row = t["bias_feed"].iloc[choice["bias_feed"]]
+    fam = pool.passives.set_index("family")
+    rf, rg = t["gain_pair"].iloc[choice["gain_pair"]]["values"]
+    ccs = None
+    if k["feed"] == "current_source":
+        ref = pool.diodes.iloc[int(k["ref_i"])]
+        ccs = dict(
+            transistors=[tr.iloc[int(k["ccs_n_i"])].to_dict(), tr.iloc[int(k["ccs_p_i"])].to_dict()],
+            vref_v=float(ref["vf_v"]) * int(k["ref_per_source"]),
+            ref_if_max_a=float(ref["if_max_a"]),
+            rth_ja_k_w=_ccs_rth_ja(tr.iloc[int(k["ccs_n_i"])], tr.iloc[int(k["ccs_p_i"])]),
+        )
+    return check_selection(
+        spec, pool, targets,
+        npn=npn, pnp=pnp, rail=rail, re_ohm=float(k["re_ohm"]),
+        re_rating_w=float(fam.loc[re_row["family"], "power_w"]),
+        op=t["driver_opamp"].iloc[choice["driver_opamp"]].to_dict(),
+        heatsink=t["heatsink"].iloc[choice["heatsink"]].to_dict(),
+        diode=t["bias_diode"].iloc[choice["bias_diode"]].to_dict(),
+        rf_ohm=float(rf), rg_ohm=float(rg),
+        feed=str(k["feed"]),
+        feed_values=(float(feed_row["v1"]), None if feed_row["v2"] < 0 else float(feed_row["v2"])),
+        feed_rating_w=float(fam.loc[feed_row["family"], "power_w"]),
+        ccs=ccs,
+    )
+
+
+def _ccs_rth_ja(a: pd.Series, b: pd.Series) -> float:
+    from partpick.evaluate.stage import _rth_ja
+
+    return min(_rth_ja(a["rth_ja_k_w"], a["package"]), _rth_ja(b["rth_ja_k_w"], b["package"]))
+
+
+def bom_lines(result: DesignResult) -> list[dict]:
+    """One row per BOM line: roles it serves, units per board, units to order."""
+    asm, sol = result.assembly, result.solution
+    assert asm is not None and sol is not None
+    rows: dict[str, dict] = {}
+    for g, o in sol.choice.items():
+        for line, per_board, role in asm.problem.groups[g].usage[o]:
+            src, value = asm.lines[line]
+            r = rows.setdefault(line, dict(line=line, mpn=src, value=value, roles=[], per_board=0.0))
+            r["per_board"] += per_board
+            if role not in r["roles"]:
+                r["roles"].append(role)
+    for r in rows.values():
+        r["qty"] = sol.need[r["line"]]
+        r["roles"].sort(key=ROLE_ORDER.index)
+    return sorted(rows.values(), key=lambda r: (ROLE_ORDER.index(r["roles"][0]), r["line"]))
+
+
+def role_parts(result: DesignResult) -> list[dict]:
+    """One row per (role, line): the report's ``parts`` list."""
+    asm, sol = result.assembly, result.solution
+    assert asm is not None and sol is not None
+    ch = result.targets.channels
+    out: dict[tuple[str, str], dict] = {}
+    for g, o in sol.choice.items():
+        for line, per_board, role in asm.problem.groups[g].usage[o]:
+            src, value = asm.lines[line]
+            key = (role, line)
+            r = out.setdefault(key, dict(role=role, line=line, mpn=src, value=value, per_board=0.0))
+            r["per_board"] += per_board
+    rows = sorted(out.values(), key=lambda r: (ROLE_ORDER.index(r["role"]), r["line"]))
+    for r in rows:
+        board_level = r["role"] in ("regulator", "regulator_set_resistor", "driver_opamp") or (r["role"] == "heatsink" and result.spec.thermal.shared_heatsink)
+        r["per_channel"] = None if board_level else r["per_board"] / ch
+        r["qty"] = _qty(result, r["per_board"])
+    return rows
+
+
+def _qty(result: DesignResult, per_board: float) -> int:
+    return result.spec.quantity(per_board)
+
+
+def infeasible_cause(result: DesignResult) -> list[str]:
+    """Sentences naming the roles with no feasible candidate and the tightest near-misses."""
+    out = []
+    asm = result.assembly
+    if result.stage.configs.empty:
+        out.append("no output-stage configuration passes: " + _top(result.stage.funnel))
+        if len(result.stage.rejected):
+            out += near_misses(result)
+    if asm is not None:
+        for role, frame in asm.candidates.items():
+            if len(frame) and not frame["feasible"].any():
+                out.append(f"no {role} passes; first rejection: {frame['rejected_by'].iloc[0]}")
+            elif not len(frame):
+                out.append(f"no {role} candidate in the catalogue")
+    if result.solution is not None and result.solution.status == "infeasible":
+        out.append("every role has candidates, but no combination meets the couplings (driver vs stage, heatsink vs stage) with the stock on offer")
+    return out
+
+
+def _top(funnel: dict[str, int]) -> str:
+    items = [(k, v) for k, v in funnel.items() if v]
+    return ", ".join(f"{k} removed {v}" for k, v in sorted(items, key=lambda kv: -kv[1])) or "no candidates"
+
+
+def near_misses(result: DesignResult, n: int = 3) -> list[str]:
+    """The least-failing stage configurations, with their numbers."""
+    rej = result.stage.rejected
+    if rej.empty:
+        return []
+    pairs = result.stage.pairs
+    msgs = []
+    score = np.minimum.reduce([rej["headroom_v"] / rej["rail_min_v"], 1 - rej["soa_util"], rej["vceo_margin_v"] / (rej["span_max_v"] * 1.2)])
+    for i in np.argsort(-score.to_numpy(), kind="stable")[:n]:
+        r = rej.iloc[i]
+        p = pairs.iloc[int(r["pair_i"])]
+        msgs.append(
+            f"{p['mpn_n']}/{p['mpn_p']} with Re {r['re_ohm']:g} ohm at {r['rail_min_v']:.1f} V: {r['rejected_by']} "
+            f"(headroom {r['headroom_v']:+.2f} V, SOA use {100 * r['soa_util']:.0f} % at 25 degC, Vceo margin {r['vceo_margin_v']:+.1f} V)"
+        )
+    return msgs
+
+
+def is_finite(x) -> bool:
+    return x is not None and not (isinstance(x, float) and math.isnan(x))

@@ -1,0 +1,251 @@
+"""The selection-and-buying MILP, generic over choice groups (PuLP; CBC or HiGHS).
+
+A :class:`Problem` has choice groups (exactly one option each), compatibility
+links (an option of a dependent group needs a compatible option of its
+parent group: ``o <= sum of compatible parent options``), linear couplings
+between the chosen options' attributes, and BOM lines. Each option uses some
+lines (units per board); the units of a line add up over every option using
+it, so passives of one family and value in several roles merge into one line.
+
+Buying, per line l and offer row r (a supplier's price break):
+``q[l,r]`` integer units, ``z[l,r]`` binary, ``max(min_qty, moq) z <= q <=
+stock z``, at most one break per (line, supplier), ``sum_r q[l,r] >= need_l``,
+and ``y[s] >= z[l,r]`` for the supplier's fixed order fee. Buying up to a
+higher break falls out by itself, since q may exceed the need.
+
+Objectives: ``cost`` = parts + fees; ``lines`` = fewest distinct lines, then
+cost (solved in two rounds). Ties are broken by a tiny weight on each option's
+rank in its group's stable key order, so the answer does not depend on the
+solver's search path.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pulp
+
+from partpick.errors import UsageError
+
+#: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
+TIE_WEIGHT = 1e-4
+
+
+@dataclass
+class Group:
+    """A role (or roles) of which exactly one option is chosen."""
+
+    name: str
+    keys: list[str]
+    usage: list[list[tuple[str, float, str]]]  # per option: (line key, units per board, role)
+    parent: str | None = None
+    compat: list[np.ndarray] | None = None  # per option: indices of compatible parent options
+
+    def __len__(self) -> int:
+        return len(self.keys)
+
+
+@dataclass
+class Coupling:
+    """``sum over groups of coef[group][option] * chosen  (<= or >=)  rhs``."""
+
+    name: str
+    terms: dict[str, np.ndarray]
+    sense: str
+    rhs: float = 0.0
+
+
+@dataclass
+class Offer:
+    supplier: str
+    min_qty: int
+    unit_price: float
+    stock: int
+    moq: int
+
+
+@dataclass
+class Problem:
+    groups: dict[str, Group]
+    couplings: list[Coupling]
+    line_offers: dict[str, list[Offer]]  # line key -> its offers
+    fees: dict[str, float]
+    factor: float  # boards x (1 + spares/100)
+    objective: str = "cost"
+    forced: dict[str, int] = field(default_factory=dict)  # group -> option index fixed to 1
+    forbidden: list[dict[str, int]] = field(default_factory=list)  # no-good cuts
+
+
+@dataclass
+class Purchase:
+    line: str
+    supplier: str
+    min_qty: int
+    unit_price: float
+    qty: int
+
+
+@dataclass
+class Solution:
+    status: str  # "optimal", "not proven optimal", "infeasible"
+    choice: dict[str, int]
+    need: dict[str, int]
+    purchases: list[Purchase]
+    parts_cost: float
+    fees_cost: float
+    suppliers_used: list[str]
+    solver: str
+
+    @property
+    def total(self) -> float:
+        return self.parts_cost + self.fees_cost
+
+
+def _solver(name: str, time_limit: float | None):
+    if name == "cbc":
+        return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, options=["randomSeed 1", "randomCbcSeed 1"])
+    if name == "highs":
+        try:
+            import highspy  # noqa: F401
+        except ImportError:
+            raise UsageError("the HiGHS solver needs the package highspy (pip install highspy); use --solver cbc") from None
+        return pulp.HiGHS(msg=False, timeLimit=time_limit, threads=1, random_seed=1)
+    raise UsageError(f"unknown solver '{name}' (cbc or highs)")
+
+
+def line_need(problem: Problem, choice: dict[str, int]) -> dict[str, float]:
+    """Units of every line a choice needs, before rounding (per board x factor)."""
+    need: dict[str, float] = {}
+    for g, o in choice.items():
+        for line, per_board, _role in problem.groups[g].usage[o]:
+            need[line] = need.get(line, 0.0) + per_board
+    return {l: q * problem.factor for l, q in need.items()}
+
+
+def ceil_units(x: float) -> int:
+    """Whole units, guarding float noise (2 x 25 x 1.04 is 52, not 53)."""
+    return int(math.ceil(round(x, 6)))
+
+
+def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None) -> Solution:
+    """Build and solve the MILP; see the module docstring for the formulation."""
+    m = pulp.LpProblem("partpick", pulp.LpMinimize)
+    x: dict[str, list[pulp.LpVariable]] = {}
+    tie = []
+    for gname, g in problem.groups.items():
+        order = np.argsort(np.array(g.keys, dtype=object), kind="stable")
+        rank = np.empty(len(g), dtype=float)
+        rank[order] = np.arange(len(g))
+        vars_ = [pulp.LpVariable(f"x_{gname}_{i}", cat="Binary") for i in range(len(g))]
+        x[gname] = vars_
+        m += pulp.lpSum(vars_) == 1, f"one_{gname}"
+        if len(g) > 1:
+            tie.append(pulp.LpAffineExpression(zip(vars_, TIE_WEIGHT * rank / (len(g) - 1))))
+        if gname in problem.forced:
+            m += vars_[problem.forced[gname]] == 1, f"forced_{gname}"
+    for gname, g in problem.groups.items():
+        if g.parent is None:
+            continue
+        parent = x[g.parent]
+        for i, compat in enumerate(g.compat or []):
+            m += pulp.LpAffineExpression([(parent[j], 1.0) for j in compat] + [(x[gname][i], -1.0)]) >= 0, f"compat_{gname}_{i}"
+    for c_i, c in enumerate(problem.couplings):
+        terms = []
+        for gname, coef in c.terms.items():
+            terms += [(v, float(a)) for v, a in zip(x[gname], coef) if a != 0.0]
+        expr = pulp.LpAffineExpression(terms)
+        m += (expr <= c.rhs) if c.sense == "<=" else (expr >= c.rhs), f"couple_{c_i}"
+    for n_i, cut in enumerate(problem.forbidden):
+        m += pulp.lpSum(x[g][o] for g, o in cut.items()) <= len(cut) - 1, f"nogood_{n_i}"
+
+    # Line needs as expressions of the choice.
+    need_expr: dict[str, list[tuple[pulp.LpVariable, float]]] = {}
+    users: dict[str, list[pulp.LpVariable]] = {}
+    # Largest need of each line: the sum over groups of each group's largest use.
+    most: dict[str, dict[str, float]] = {}
+    for gname, g in problem.groups.items():
+        for i, usage in enumerate(g.usage):
+            for line, per_board, _role in usage:
+                units = per_board * problem.factor
+                need_expr.setdefault(line, []).append((x[gname][i], units))
+                users.setdefault(line, []).append(x[gname][i])
+                per_group = most.setdefault(line, {})
+                per_group[gname] = max(per_group.get(gname, 0.0), units)
+    suppliers = sorted(problem.fees)
+    y = {s: pulp.LpVariable(f"y_{k}", cat="Binary") for k, s in enumerate(suppliers)}
+    cost_terms = [(y[s], problem.fees[s]) for s in suppliers]
+    buy: list[tuple[str, Offer, pulp.LpVariable]] = []
+    for l_i, line in enumerate(sorted(need_expr)):
+        offers = problem.line_offers.get(line, [])
+        # No plan buys more than the largest need, except to reach a break or MOQ.
+        need_max = ceil_units(sum(most[line].values()))
+        qs = []
+        by_supplier: dict[str, list[pulp.LpVariable]] = {}
+        for r_i, off in enumerate(offers):
+            low = max(off.min_qty, off.moq)
+            if low > off.stock:
+                continue
+            cap = min(off.stock, max(need_max, low))
+            z = pulp.LpVariable(f"z_{l_i}_{r_i}", cat="Binary")
+            q = pulp.LpVariable(f"q_{l_i}_{r_i}", lowBound=0, upBound=cap, cat="Integer")
+            m += q - low * z >= 0
+            m += q - cap * z <= 0
+            m += z - y[off.supplier] <= 0
+            by_supplier.setdefault(off.supplier, []).append(z)
+            # Price plus a sub-cent preference for the earlier supplier, so that
+            # equal prices split the same way with every solver.
+            cost_terms.append((q, off.unit_price + 1e-7 * (suppliers.index(off.supplier) + 1)))
+            qs.append((q, 1.0))
+            buy.append((line, off, q))
+        for zs in by_supplier.values():
+            if len(zs) > 1:
+                m += pulp.lpSum(zs) <= 1
+        m += pulp.LpAffineExpression(qs + [(v, -a) for v, a in need_expr[line]]) >= -1e-6, f"need_{l_i}"
+    cost = pulp.LpAffineExpression(cost_terms)
+    tie_expr = pulp.lpSum(tie)
+
+    sol = _solver(solver, time_limit)
+    if problem.objective == "lines":
+        u = {line: pulp.LpVariable(f"u_{k}", cat="Binary") for k, line in enumerate(sorted(users))}
+        for line, vs in users.items():
+            for k, v in enumerate(vs):
+                m += u[line] - v >= 0
+        n_lines = pulp.lpSum(u.values())
+        m.setObjective(n_lines + 1e-6 * cost + tie_expr * 1e-3)
+        status = m.solve(sol)
+        if pulp.LpStatus[status] == "Optimal":
+            best_lines = round(pulp.value(n_lines))
+            m += n_lines <= best_lines + 1e-6, "lines_fixed"
+    m.setObjective(cost + tie_expr)
+    status = m.solve(sol)
+    text = pulp.LpStatus[status]
+    if text in ("Infeasible", "Undefined") or (text != "Optimal" and x and pulp.value(next(iter(x.values()))[0]) is None):
+        return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
+    choice = {g: int(np.argmax([v.value() or 0.0 for v in vs])) for g, vs in x.items()}
+    purchases = [
+        Purchase(line, off.supplier, off.min_qty, off.unit_price, int(round(q.value())))
+        for line, off, q in buy
+        if q.value() and round(q.value()) > 0
+    ]
+    used = sorted({p.supplier for p in purchases})
+    parts = sum(p.qty * p.unit_price for p in purchases)
+    fees = sum(problem.fees[s] for s in used)
+    need = {l: ceil_units(q) for l, q in line_need(problem, choice).items()}
+    state = "optimal" if text == "Optimal" else "not proven optimal"
+    return Solution(state, choice, need, sorted(purchases, key=lambda p: (p.line, p.supplier)), round(parts, 6), round(fees, 6), used, solver)
+
+
+def check_choice(problem: Problem, choice: dict[str, int]) -> list[str]:
+    """Constraints a choice breaks (compat and couplings); empty when feasible."""
+    broken = []
+    for gname, g in problem.groups.items():
+        if g.parent is not None and choice[g.parent] not in set(g.compat[choice[gname]].tolist()):
+            broken.append(f"compat {gname}")
+    for c in problem.couplings:
+        lhs = sum(float(coef[choice[g]]) for g, coef in c.terms.items())
+        ok = lhs <= c.rhs + 1e-9 if c.sense == "<=" else lhs >= c.rhs - 1e-9
+        if not ok:
+            broken.append(c.name)
+    return broken

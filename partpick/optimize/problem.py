@@ -1,0 +1,242 @@
+"""Assemble the MILP from the evaluation tables (optimiser formulation, stage 2).
+
+Every group, compat link and coupling here mirrors a model constraint that
+couples two roles; constraints of one role alone were already applied as
+filters in the evaluation layer.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from partpick.evaluate.context import Pool, Targets
+from partpick.evaluate.roles import (
+    comp_cap_options,
+    diode_candidates,
+    heatsink_candidates,
+    opamp_candidates,
+    passive_roles,
+)
+from partpick.evaluate.stage import StageTable
+from partpick.model.defaults import BASE_DRIVE_MARGIN
+from partpick.model.eseries import format_value
+from partpick.optimize.milp import Coupling, Group, Offer, Problem
+from partpick.spec import Spec
+
+
+@dataclass
+class Assembly:
+    """The MILP and the tables behind each of its groups (for the report)."""
+
+    problem: Problem
+    tables: dict[str, pd.DataFrame]
+    lines: dict[str, tuple[str, float | None]]  # line key -> (mpn or family, value)
+    funnel: dict[str, dict[str, int]]
+    candidates: dict[str, pd.DataFrame]  # every candidate with feasible/rejected_by, per role
+
+
+def line_key(source: str, value: float | None = None) -> str:
+    return source if value is None else f"{source}@{format_value(value)}"
+
+
+def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Assembly | None:
+    """The MILP for this spec, or None when some group has no feasible option."""
+    ch = targets.channels
+    lines: dict[str, tuple[str, float | None]] = {}
+    tables: dict[str, pd.DataFrame] = {}
+    groups: dict[str, Group] = {}
+    funnel: dict[str, dict[str, int]] = {"output stage": dict(stage.funnel)}
+    candidates: dict[str, pd.DataFrame] = {}
+
+    def use(source: str, value: float | None, per_board: float, role: str) -> tuple[str, float, str]:
+        key = line_key(source, value)
+        lines[key] = (source, value)
+        return (key, float(per_board), role)
+
+    k = stage.configs
+    if k.empty:
+        return _fail(funnel, candidates, tables, lines)
+    tr = pool.transistors
+    pairs, rails = stage.pairs, stage.rails
+    dio = pool.diodes
+
+    # --- stage group
+    usage = []
+    for row in k.itertuples(index=False):
+        p = pairs.iloc[row.pair_i]
+        u = [use(p["mpn_n"], None, ch, "output_npn"), use(p["mpn_p"], None, ch, "output_pnp")]
+        if row.feed == "current_source":
+            u += [use(tr.at[row.ccs_p_i, "mpn"], None, ch, "bias_source_transistor"),
+                  use(tr.at[row.ccs_n_i, "mpn"], None, ch, "bias_source_transistor"),
+                  use(dio.at[row.ref_i, "mpn"], None, 2 * ch * row.ref_per_source, "bias_source_reference")]
+        r = rails.iloc[row.rail_i]
+        if r["regulated"]:
+            u.append(use(r["reg_mpn"], None, 1, "regulator"))
+            if isinstance(r["reg_family"], str):
+                u += [use(r["reg_family"], r["reg_r1_ohm"], 1, "regulator_set_resistor"),
+                      use(r["reg_family"], r["reg_r2_ohm"], 1, "regulator_set_resistor")]
+        usage.append(u)
+    groups["stage"] = Group("stage", list(k["key"]), usage)
+    tables["stage"] = k
+
+    # --- emitter resistors: value linked to the stage's Re
+    res = stage.re_options
+    k_re = k["re_ohm"].to_numpy(float)
+    compat = [np.flatnonzero(np.isclose(k_re, v, rtol=1e-9)) for v in res["value_ohm"]]
+    keep = [i for i, c in enumerate(compat) if len(c)]
+    res = res.iloc[keep].reset_index(drop=True)
+    groups["emitter_resistor"] = Group(
+        "emitter_resistor", [f"{f}|{v:.6f}" for f, v in zip(res["family"], res["value_ohm"])],
+        [[use(f, v, 2 * ch, "emitter_resistor")] for f, v in zip(res["family"], res["value_ohm"])],
+        parent="stage", compat=[compat[i] for i in keep],
+    )
+    tables["emitter_resistor"] = res
+
+    # --- bias feed resistors
+    fo = stage.feed_options
+    fo = fo.assign(v2=fo["v2"].fillna(-1.0))
+    grouped = fo.groupby(["kind", "family", "v1", "v2"], sort=True)["k"].apply(lambda s: np.unique(s.to_numpy()))
+    opts = grouped.reset_index()
+    usage = []
+    for row in opts.itertuples(index=False):
+        if row.kind == "bias_resistor":
+            usage.append([use(row.family, row.v1, 2 * ch, "bias_resistor")])
+        else:
+            usage.append([use(row.family, row.v1, 2 * ch, "bias_source_resistor"), use(row.family, row.v2, 2 * ch, "bias_source_resistor")])
+    groups["bias_feed"] = Group(
+        "bias_feed", [f"{a}|{b}|{c:.6g}|{d:.6g}" for a, b, c, d in zip(opts["kind"], opts["family"], opts["v1"], opts["v2"])],
+        usage, parent="stage", compat=list(opts["k"]),
+    )
+    tables["bias_feed"] = opts
+
+    # --- bias diodes
+    standing = k["standing_a"].to_numpy(float)
+    dc = diode_candidates(pool, float(standing.min()))
+    candidates["bias_diode"] = dc
+    d_ok = dc[dc["feasible"]].reset_index(drop=True)
+    funnel["bias_diode"] = _counts(dc)
+    vd_max = float(d_ok["vf_v"].max()) if len(d_ok) else 0.65
+
+    # --- gain pair and other passive roles (independent of the stage)
+    roles = passive_roles(spec, pool, targets)
+    for r in roles:
+        candidates[r.group] = r.options
+        funnel[r.group] = _counts(r.options)
+        ok = r.options[r.options["feasible"]].reset_index(drop=True)
+        if ok.empty:
+            return _fail(funnel, candidates, tables, lines)
+        mult = ch if r.per == "channel" else 1
+        usage = [[use(f, v, c * mult, role) for v, role, c in zip(vals, rls, cnts)]
+                 for f, vals, rls, cnts in zip(ok["family"], ok["values"], ok["roles"], ok["counts"])]
+        groups[r.group] = Group(r.group, [f"{f}|{vals}" for f, vals in zip(ok["family"], ok["values"])], usage)
+        tables[r.group] = ok
+    gp = tables["gain_pair"]
+    i_fb = np.array([targets.v_peak_v / (rf + rg) for rf, rg in gp["values"]])
+
+    # --- op-amps against the most lenient configuration
+    c_slew = 2 * math.pi * spec.output.f_high_hz / 1e6
+    best = dict(
+        vd_max=vd_max,
+        drive_room_v=float((k["rail_min_v"] - k["base_peak_v"]).max()),
+        iout_need_a=float((BASE_DRIVE_MARGIN * k["ib_peak_a"]).min() + i_fb.min()),
+        span_max_v=float(k["span_max_v"].min()),
+        span_min_v=float(k["span_min_v"].max()),
+        slew_need_v_us=float(c_slew * (k["base_peak_v"].min() - vd_max)),
+        vcm_room_v=float((k["rail_min_v"] - targets.input_peak_v).max()),
+    )
+    oc = opamp_candidates(spec, pool, targets, best)
+    candidates["driver_opamp"] = oc
+    funnel["driver_opamp"] = _counts(oc)
+    op = oc[oc["feasible"]].reset_index(drop=True)
+    groups["driver_opamp"] = Group("driver_opamp", list(op["mpn"]), [[use(m, None, n, "driver_opamp")] for m, n in zip(op["mpn"], op["packages_per_board"])])
+    tables["driver_opamp"] = op
+
+    # --- compensation capacitors, when an op-amp needs one
+    comp = op["comp_pf"].fillna(0.0).to_numpy(float)
+    if (comp > 0).any():
+        cc = comp_cap_options(pool, op, v_req=2 * spec.supply.v_max)
+        keys, usage, compat = ["none"], [[]], [np.flatnonzero(comp == 0)]
+        for row in cc.itertuples(index=False):
+            keys.append(f"{row.family}|{row.value_f:.3e}")
+            usage.append([use(row.family, row.value_f, ch, "comp_capacitor")])
+            compat.append(np.flatnonzero(np.isclose(comp, row.comp_pf)))
+        groups["comp_capacitor"] = Group("comp_capacitor", keys, usage, parent="driver_opamp", compat=compat)
+        tables["comp_capacitor"] = pd.concat([pd.DataFrame([dict(family=None, value_f=0.0, comp_pf=0.0)]), cc], ignore_index=True)
+
+    # --- heatsinks
+    packages = set(pairs["package"].iloc[np.unique(k["pair_i"])])
+    best_rth = {(-1.0 if math.isnan(c) else c): float(np.max(stage.rth_sa_max[:, i])) for i, c in enumerate(stage.rth_cs_classes)}
+    hc = heatsink_candidates(spec, pool, targets, packages, best_rth)
+    candidates["heatsink"] = hc
+    funnel["heatsink"] = _counts(hc)
+    hs = hc[hc["feasible"]].reset_index(drop=True)
+    # A heatsink fits a configuration when it mounts its package and its rating is
+    # at or below what that configuration tolerates with the sink's mounting (s.6, s.13).
+    k_pkg = pairs["package"].to_numpy()[k["pair_i"].to_numpy()]
+    class_of = {(-1.0 if math.isnan(c) else c): i for i, c in enumerate(stage.rth_cs_classes)}
+    hs_compat = [
+        np.flatnonzero((stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & np.isin(k_pkg, list(mounts)))
+        for r, c, mounts in zip(hs["rth_sa_k_w"], hs["rth_class"], hs["mounts"])
+    ]
+    keep = [i for i, c in enumerate(hs_compat) if len(c)]
+    hs = hs.iloc[keep].reset_index(drop=True)
+    groups["heatsink"] = Group(
+        "heatsink", list(hs["mpn"]), [[use(m, None, n, "heatsink")] for m, n in zip(hs["mpn"], hs["per_board"])],
+        parent="stage", compat=[hs_compat[i] for i in keep],
+    )
+    tables["heatsink"] = hs
+
+    groups["bias_diode"] = Group("bias_diode", list(d_ok["mpn"]), [[use(m, None, 2 * ch, "bias_diode")] for m in d_ok["mpn"]])
+    tables["bias_diode"] = d_ok
+
+    if any(len(g) == 0 for g in groups.values()):
+        return _fail(funnel, candidates, tables, lines)
+
+    couplings = _couplings(targets, k, op, d_ok, i_fb, c_slew)
+    offers = _offers(pool, lines)
+    fees = dict(zip(pool.suppliers["supplier"], pool.suppliers["order_fee"].astype(float)))
+    factor = spec.order.boards * (1.0 + spec.order.spares_pct / 100.0)
+    problem = Problem(groups, couplings, offers, fees, factor, spec.order.objective)
+    return Assembly(problem, tables, lines, funnel, candidates)
+
+
+def _couplings(targets, k, op, d_ok, i_fb, c_slew) -> list[Coupling]:
+    rail_min = k["rail_min_v"].to_numpy(float)
+    base_pk = k["base_peak_v"].to_numpy(float)
+    cs = [
+        Coupling("driver reach (s.3)", {"driver_opamp": op["swing_headroom_v"].to_numpy(float), "bias_diode": -d_ok["vf_v"].to_numpy(float), "stage": -(rail_min - base_pk)}, "<="),
+        Coupling("output current (s.3)", {"driver_opamp": op["iout_max_a"].to_numpy(float), "stage": -BASE_DRIVE_MARGIN * k["ib_peak_a"].to_numpy(float), "gain_pair": -i_fb}, ">="),
+        Coupling("supply span max (s.8)", {"driver_opamp": op["supply_max_v"].to_numpy(float), "stage": -k["span_max_v"].to_numpy(float)}, ">="),
+        Coupling("supply span min (s.8)", {"driver_opamp": op["supply_min_v"].to_numpy(float), "stage": -k["span_min_v"].to_numpy(float)}, "<="),
+        Coupling("slew rate (s.8)", {"driver_opamp": op["slew_v_us"].to_numpy(float), "bias_diode": c_slew * d_ok["vf_v"].to_numpy(float), "stage": -c_slew * base_pk}, ">="),
+        Coupling("input common mode (s.8)", {"driver_opamp": op["vcm_headroom_v"].to_numpy(float), "stage": -(rail_min - targets.input_peak_v)}, "<="),
+        Coupling("bias diode current (s.13)", {"bias_diode": d_ok["if_max_a"].to_numpy(float), "stage": -2.0 * k["standing_a"].to_numpy(float)}, ">="),
+    ]
+    return cs
+
+
+def _offers(pool: Pool, lines: dict[str, tuple[str, float | None]]) -> dict[str, list[Offer]]:
+    by_source: dict[str, list[Offer]] = {}
+    off = pool.offers.sort_values(["mpn", "supplier", "min_qty"])
+    for row in off.itertuples(index=False):
+        moq = 1 if row.moq is None or (isinstance(row.moq, float) and math.isnan(row.moq)) else int(row.moq)
+        by_source.setdefault(row.mpn, []).append(Offer(row.supplier, int(row.min_qty), float(row.unit_price), int(row.stock), moq))
+    return {key: by_source.get(src, []) for key, (src, _v) in lines.items()}
+
+
+def _counts(frame: pd.DataFrame) -> dict[str, int]:
+    out = {"candidates": int(len(frame))}
+    if len(frame):
+        for reason in frame.loc[~frame["feasible"], "rejected_by"]:
+            name = str(reason).split(":")[0]
+            out[name] = out.get(name, 0) + 1
+    out["feasible"] = int(frame["feasible"].sum()) if len(frame) else 0
+    return out
+
+
+def _fail(funnel, candidates, tables, lines) -> Assembly:
+    return Assembly(None, tables, lines, funnel, candidates)  # type: ignore[arg-type]

@@ -1,0 +1,119 @@
+"""Terminal rendering of a report dict with rich, readable at 80 columns."""
+
+from __future__ import annotations
+
+from rich import box
+from rich.panel import Panel
+from rich.table import Table
+from rich.text import Text
+
+from partpick.report.console import Terminal
+
+
+def _tight_style(fraction: float | None) -> str:
+    if fraction is None:
+        return ""
+    if fraction < 0:
+        return "bold red"
+    if fraction < 0.05:
+        return "red"
+    if fraction < 0.15:
+        return "yellow"
+    return "green"
+
+
+def _f(x, fmt: str = "{:.2f}", none: str = "-") -> str:
+    return none if x is None else fmt.format(x)
+
+
+def render_design(term: Terminal, rep: dict) -> None:
+    d = rep["design"]
+    cur = rep["totals"]["currency"]
+    rails = (
+        f"+/-{d['rail_min_v']:.1f} to {d['rail_max_v']:.1f} V" if d["arrangement"] == "split"
+        else f"{2 * d['rail_min_v']:.1f} to {2 * d['rail_max_v']:.1f} V single"
+    )
+    if d["regulated"]:
+        rails = f"{d['regulator_vout_v']:.2f} V regulated, single"
+    grid = Table.grid(padding=(0, 2))
+    grid.add_column(style="bold")
+    grid.add_column()
+    grid.add_column(style="bold")
+    grid.add_column()
+    rows = [
+        ("supply", rails, "peak out", f"{d['v_peak_v']:.2f} V / {d['i_peak_a']:.2f} A"),
+        ("gain", f"{d['gain']:.2f}", "Re / Iq", f"{d['re_ohm']:g} ohm / {1e3 * d['iq_a']:.0f} mA"),
+        ("P device", f"{d['p_device_max_w']:.1f} W worst case", "Tj reached", f"{d['tj_max_reached_c']:.0f} degC"),
+        ("heatsink", f"{d['rth_sa_chosen_k_w']:g} K/W (<= {_f(d['rth_sa_required_k_w'])})", "sink temp", f"{d['t_sink_c']:.0f} degC"),
+        ("SOA margin", f"{100 * d['soa_margin']:.0f} %", "loop gain", f"{d['thermal_loop_gain']:.2f} (<= 0.5)"),
+        ("bias feed", f"{d['bias_feed'].replace('_', ' ')}, {1e3 * d['bias_current_a']:.1f} mA", "efficiency", f"{100 * d['efficiency']:.0f} % at full power"),
+    ]
+    for r in rows:
+        grid.add_row(*r)
+    title = f"{rep['spec']['name']}"
+    sub = "optimal" if rep.get("optimal") else "[yellow]not proven optimal[/]"
+    term.print(Panel(grid, title=title, subtitle=sub, expand=False))
+
+    bom = Table(title="Parts", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
+    bom.add_column("role", overflow="fold", max_width=16)
+    bom.add_column("part", overflow="fold")
+    bom.add_column("/ch", justify="right")
+    bom.add_column("qty", justify="right")
+    bom.add_column("tightest margin", overflow="fold")
+    for p in rep["parts"]:
+        part = p["mpn"] + (f" {p['value']}" if p["value"] else "")
+        per = _f(p["qty_per_channel"], "{:g}", "board")
+        b = p["binding"]
+        if b:
+            unit = f" {b['unit']}" if b["unit"] else ""
+            val = f"{b['margin']:+.3g}{unit}" if b["unit"] else f"{100 * b['margin']:+.0f} %"
+            tight = Text(f"{b['constraint']} {val}", style=_tight_style(b["fraction"]))
+        else:
+            tight = Text("")
+        bom.add_row(p["role"].replace("_", " "), part, per, str(p["qty"]), tight)
+    term.print(bom)
+
+    order = Table(title="Order", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
+    order.add_column("supplier", overflow="fold", max_width=14)
+    order.add_column("part", overflow="fold")
+    order.add_column("qty", justify="right")
+    order.add_column("break", justify="right")
+    order.add_column("unit", justify="right")
+    order.add_column("total", justify="right")
+    for o in rep["order"]:
+        part = o["mpn"] + (f" {o['value']}" if o["value"] else "")
+        qty = f"{o['qty']}" + (f" ({o['needed']})" if o["qty"] != o["needed"] else "")
+        order.add_row(o["supplier"], part, qty, str(o["price_break"]), f"{o['unit_price']:.4g}", f"{o['extended_price']:.2f}")
+    t = rep["totals"]
+    for s, fee in t["fees_by_supplier"].items():
+        if fee:
+            order.add_row(s, "order fee", "", "", "", f"{fee:.2f}")
+    order.add_row("", Text("total", style="bold"), "", "", "", Text(f"{t['total']:.2f} {cur}", style="bold"))
+    term.print(order)
+    term.print(f"{t['boards']} board(s): {t['per_board']:.2f} {cur} per board; parts {t['parts']:.2f} + fees {t['fees']:.2f}")
+    _warnings_and_cautions(term, rep)
+
+
+def render_infeasible(term: Terminal, rep: dict) -> None:
+    term.always(Text("No feasible design for this spec and catalogue.", style="bold red"))
+    for c in rep.get("causes", []):
+        term.always(f"- {c}")
+    t = Table(title="Candidate funnel (first failing constraint)", box=box.SIMPLE_HEAD, title_justify="left")
+    t.add_column("role")
+    t.add_column("candidates", justify="right")
+    t.add_column("removed by", overflow="fold")
+    t.add_column("left", justify="right")
+    for role, counts in rep.get("funnel", {}).items():
+        removed = ", ".join(f"{k} {v}" for k, v in counts.items() if k not in ("candidates", "feasible") and v)
+        t.add_row(role.replace("_", " "), str(counts.get("candidates", "")), removed, str(counts.get("feasible", "")))
+    term.always(t)
+    sug = rep.get("suggestions") or {}
+    for k, v in sug.items():
+        term.always(f"suggestion: {k.replace('_', ' ')}: {v}")
+    _warnings_and_cautions(term, rep)
+
+
+def _warnings_and_cautions(term: Terminal, rep: dict) -> None:
+    for w in rep.get("warnings", []):
+        term.print(f"[yellow]warning:[/] {w}")
+    term.print(Panel("\n".join(f"- {c}" for c in rep["cautions"]), title="Safety", border_style="red", expand=False))
