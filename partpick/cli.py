@@ -28,7 +28,11 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--version", action="version", version=f"partpick {__version__}")
     p.add_argument("--no-color", action="store_true", help="plain text output")
     p.add_argument("--quiet", action="store_true", help="print only errors and the total")
-    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    # The same two flags after the command name; SUPPRESS keeps the global value when absent.
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--no-color", action="store_true", default=argparse.SUPPRESS, help="plain text output")
+    common.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS, help="print only errors and the total")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_sub_parser(common))
 
     d = sub.add_parser("design", help="choose every part and the cheapest order for a spec")
     _design_args(d)
@@ -50,6 +54,15 @@ def _parser() -> argparse.ArgumentParser:
     e.add_argument("--catalog", metavar="DIR")
     e.add_argument("--json", metavar="FILE")
     return p
+
+
+def _sub_parser(common: argparse.ArgumentParser):
+    class Sub(argparse.ArgumentParser):
+        def __init__(self, *a, **kw):
+            kw.setdefault("parents", [common])
+            super().__init__(*a, **kw)
+
+    return Sub
 
 
 def _design_args(d: argparse.ArgumentParser) -> None:

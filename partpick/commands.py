@@ -48,11 +48,18 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
             _refuse_input(out, inputs)
     result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver, spec_label=args.spec)
     rep = build_report(result, catalog.file_sha256, args.solver)
-    if args.json:
-        write_json(args.json, rep)
     if not result.feasible:
+        from partpick.optimize.explain import suggestions
+
+        if not term.quiet:
+            term.print("No feasible design; searching what would make it feasible ...")
+        rep["suggestions"] = suggestions(result.spec, catalog, tuple(args.exclude))
+        if args.json:
+            write_json(args.json, rep)
         render_infeasible(term, rep)
         return EXIT_INFEASIBLE
+    if args.json:
+        write_json(args.json, rep)
     if args.bom:
         from partpick.report.bom_csv import write_bom_csv
 
@@ -61,15 +68,81 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         term.always(f"{rep['totals']['total']:.2f} {rep['totals']['currency']}")
     else:
         render_design(term, rep)
+    if args.alternatives and args.alternatives > 1:
+        from partpick.optimize.explain import alternatives
+        from partpick.report.text import render_alternatives
+
+        alts = alternatives(result.spec, catalog, args.alternatives, tuple(args.exclude), args.solver)
+        render_alternatives(term, [build_report(a, catalog.file_sha256, args.solver) for a in alts])
     return EXIT_OK
 
 
+EVALUATE_ROLES = ("output_npn", "output_pnp", "driver_opamp", "heatsink", "bias_diode", "regulator", "emitter_resistor")
+
+
 def run_evaluate(args: argparse.Namespace, term: Terminal) -> int:
-    raise UsageError("evaluate is not available yet")
+    """The full check of a hand-picked selection; the optimiser fills the roles not given."""
+    from partpick.optimize.design import run
+    from partpick.optimize.explain import why
+    from partpick.report.build import build_report
+    from partpick.report.text import render_design
+
+    forced: dict[str, str] = {}
+    for item in args.part:
+        role, sep, mpn = item.partition("=")
+        if not sep or not mpn:
+            raise UsageError(f"--part {item}: write ROLE=MPN, e.g. output_npn=XY123")
+        if role not in EVALUATE_ROLES:
+            raise UsageError(f"--part {item}: role must be one of {', '.join(EVALUATE_ROLES)}")
+        forced[role] = mpn.strip()
+    spec = load_spec(args.spec)
+    catalog = _catalog(args.catalog)
+    _check_known(catalog, forced.values())
+    result = run(spec, catalog, forced=forced, spec_label=args.spec)
+    rep = build_report(result, catalog.file_sha256, "cbc")
+    if args.json:
+        _refuse_input(args.json, _input_paths(args.spec, catalog))
+        write_json(args.json, rep)
+    if result.feasible:
+        term.print("Evaluated selection: " + ", ".join(f"{r}={m}" for r, m in forced.items()))
+        render_design(term, rep)
+        return EXIT_OK
+    term.always("[bold red]The selection is not feasible.[/]")
+    for role, mpn in forced.items():
+        ans = why(spec, catalog, mpn)
+        term.always(f"- {role} {mpn}: {ans.reason}")
+    return EXIT_INFEASIBLE
 
 
 def run_why(args: argparse.Namespace, term: Terminal) -> int:
-    raise UsageError("why is not available yet")
+    from partpick.optimize.explain import why
+
+    spec = load_spec(args.spec)
+    catalog = _catalog(args.catalog)
+    ans = why(spec, catalog, args.mpn, solver=args.solver)
+    cur = catalog.currency
+    if ans.chosen:
+        term.always(f"{ans.mpn} is in the optimal design ({ans.optimum_total:.2f} {cur}).")
+    elif ans.forced_total is not None:
+        diff = ans.forced_total - (ans.optimum_total or 0.0)
+        term.always(
+            f"{ans.mpn} ({ans.role}) is feasible but not the cheapest: the best design forced to use it costs "
+            f"{ans.forced_total:.2f} {cur}, {diff:+.2f} {cur} against the optimum {ans.optimum_total:.2f} {cur}."
+        )
+    else:
+        term.always(f"{ans.mpn} is not used: {ans.reason}")
+    return EXIT_OK
+
+
+def _check_known(catalog: Catalog, mpns) -> None:
+    from partpick.errors import InputError, Problem
+
+    known = set(catalog.passives["family"])
+    for f in (catalog.transistors, catalog.opamps, catalog.regulators, catalog.heatsinks, catalog.diodes):
+        known.update(f["mpn"])
+    bad = [Problem("command line", 0, "--part", f"unknown part '{m}'") for m in mpns if m not in known]
+    if bad:
+        raise InputError(bad)
 
 
 def _input_paths(spec_path: str, catalog: Catalog) -> set[Path]:

@@ -305,6 +305,9 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
             span_min_v=rails["span_min_v"].to_numpy(float)[ri], span_max_v=span_max,
             iq_a=iq, headroom_v=head, base_peak_v=base_pk, reach_v=reach, ib_peak_a=ib_pk,
             vceo_margin_v=vceo_m, ic_margin_a=ic_m, soa_util=util, p_device_w=p_dev,
+            vce_sat_v=w["vce_sat_v"][pi_], vbe_v=w["vbe_v"][pi_], hfe=w["hfe"][pi_],
+            vceo_v=w["vceo_v"][pi_], ic_max_a=w["ic_max_a"][pi_],
+            rth_sa_best_k_w=np.nanmax(rth_max, axis=1),
         )
     )
     core_checks = {
@@ -328,8 +331,11 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     k["ref_per_source"] = feeds["ref_per_source"].to_numpy()
     k["standing_a"] = feeds["standing_a"].to_numpy()
     rth_k = rth_max[feeds["core_i"].to_numpy()]
-    n_feed_fail = feeds.attrs["rejected"]
-    funnel["bias feed (s.3)"] = n_feed_fail
+    unserved = feeds.attrs["unserved"]
+    funnel["bias feed (s.3)"] = int(len(unserved))
+    feed_rejected = core.iloc[unserved].copy()
+    feed_rejected["rejected_by"] = "bias feed (s.3)"
+    feed_rejected["feed_note"] = feeds.attrs["unserved_note"]
 
     # Regulator heat (model s.10), when the rail comes from a regulator.
     reg = rails.iloc[k["rail_i"].to_numpy()]
@@ -347,7 +353,8 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     feed_opts = _remap(feed_opts, np.flatnonzero(ok))
     k["key"] = _keys(k, rails, pairs)
 
-    rejected = core_rejected
+    rejected = pd.concat([core_rejected, feed_rejected], ignore_index=True)
+    rejected["reason"] = [describe_rejection(r, targets) for r in rejected.to_dict("records")]
     return StageTable(
         configs=k, rth_sa_max=rth_k, rth_cs_classes=classes, feed_options=feed_opts,
         re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=rejected,
@@ -397,8 +404,8 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     base_pk = core["base_peak_v"].to_numpy(float)
     ib = core["ib_peak_a"].to_numpy(float)
     offset = 0
+    r1_max = swing.bias_resistor_max_ohm(rail_min, base_pk, ib)
     if mode in ("resistor", "auto"):
-        r1_max = swing.bias_resistor_max_ohm(rail_min, base_pk, ib)
         best_i = np.zeros(n)
         per_fam = []
         for f in fams.itertuples(index=False):
@@ -433,7 +440,9 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
             ccs_ok[idx] = True
     out = pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a"])
     out.attrs["options"] = pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"])
-    out.attrs["rejected"] = int((~(res_ok | ccs_ok)).sum())
+    unserved = np.flatnonzero(~(res_ok | ccs_ok))
+    out.attrs["unserved"] = unserved
+    out.attrs["unserved_note"] = [_feed_note(mode, r1_max[i] if mode != "current_source" else np.nan, core.iloc[i], vd_min, res_ok[i], fams) for i in unserved]
     return out
 
 
@@ -493,6 +502,50 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                 ks = np.flatnonzero(fits)
                 opt_frames.append(pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks])))
             yield idx, frame, pd.concat(opt_frames, ignore_index=True)
+
+
+def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, resistor_ok: bool, fams: pd.DataFrame) -> str:
+    """Why no bias feed serves a configuration, with the numbers (issue of base drive, model s.3)."""
+    ib = row["ib_peak_a"]
+    parts = [f"needs {1e3 * BASE_DRIVE_MARGIN * ib:.0f} mA of base drive at the peak"]
+    if mode != "current_source":
+        if not np.isfinite(r1_max) or r1_max <= 0:
+            parts.append("resistor feed: no voltage left across R1 at the peak")
+        else:
+            p = float(swing.bias_resistor_power_w(row["rail_max_v"], vd_min, row["base_peak_v"], r1_max))
+            best = float(fams["power_w"].max()) if len(fams) else 0.0
+            parts.append(f"resistor feed would need R1 <= {r1_max:.3g} ohm dissipating {p:.2g} W (largest family rating {best:g} W)")
+    if mode != "resistor":
+        room = row["rail_min_v"] - row["base_peak_v"]
+        i_ccs = max(BASE_DRIVE_MARGIN * ib, CCS_MIN_CURRENT_A)
+        if room < CCS_COMPLIANCE_V:
+            parts.append(f"current source: only {room:.2f} V of compliance left (needs {CCS_COMPLIANCE_V:g} V)")
+        else:
+            p = float(swing.ccs_transistor_dissipation_w(row["rail_max_v"], i_ccs))
+            parts.append(f"current source: its transistor would dissipate up to {p:.2g} W in free air, more than any small pair in the catalogue may")
+    return "; ".join(parts)
+
+
+def describe_rejection(r: dict, targets: Targets) -> str:
+    """The first failing stage constraint as a sentence with its numbers."""
+    vp, ip = targets.v_peak_v, targets.i_peak_a
+    by = r["rejected_by"]
+    if by.startswith("transistor headroom"):
+        need = vp + ip * r["re_ohm"] + r["vce_sat_v"]
+        return f"{by}: needs {need:.2f} V per rail (Vp {vp:.2f} + Ip*Re {ip * r['re_ohm']:.2f} + Vce_sat {r['vce_sat_v']:.2f}), the rail gives {r['rail_min_v']:.2f} V"
+    if by.startswith("driver reach"):
+        return f"{by}: the bases must reach {r['base_peak_v']:.2f} V, the rail gives {r['rail_min_v']:.2f} V"
+    if by.startswith("Vceo"):
+        return f"{by}: Vceo {r['vceo_v']:g} V, needs {1.2 * r['span_max_v']:.1f} V (1.2 x {r['span_max_v']:.1f} V span)"
+    if by.startswith("Ic max"):
+        return f"{by}: Ic max {r['ic_max_a']:g} A below the peak {ip:.2f} A"
+    if by.startswith("SOA"):
+        return f"{by}: the load line needs {100 * r['soa_util']:.0f} % of the 25 degC DC SOA at {r['rail_max_v']:.1f} V, {ip:.2f} A peak, before any derating"
+    if by.startswith("thermal"):
+        return f"{by}: the largest tolerable Rth_sa is {r['rth_sa_best_k_w']:.2f} K/W at {r['p_device_w']:.1f} W per device"
+    if by.startswith("bias feed"):
+        return f"{by}: {r.get('feed_note', '')}"
+    return by
 
 
 def _rth_ja(value: float, package: str) -> float:

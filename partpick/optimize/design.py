@@ -222,14 +222,15 @@ def near_misses(result: DesignResult, n: int = 3) -> list[str]:
         return []
     pairs = result.stage.pairs
     msgs = []
-    score = np.minimum.reduce([rej["headroom_v"] / rej["rail_min_v"], 1 - rej["soa_util"], rej["vceo_margin_v"] / (rej["span_max_v"] * 1.2)])
-    for i in np.argsort(-score.to_numpy(), kind="stable")[:n]:
+    score = np.minimum.reduce([
+        (rej["headroom_v"] / rej["rail_min_v"]).to_numpy(float),
+        (1 - rej["soa_util"]).to_numpy(float),
+        (rej["vceo_margin_v"] / (rej["span_max_v"] * 1.2)).to_numpy(float),
+    ])
+    for i in np.argsort(-score, kind="stable")[:n]:
         r = rej.iloc[i]
         p = pairs.iloc[int(r["pair_i"])]
-        msgs.append(
-            f"{p['mpn_n']}/{p['mpn_p']} with Re {r['re_ohm']:g} ohm at {r['rail_min_v']:.1f} V: {r['rejected_by']} "
-            f"(headroom {r['headroom_v']:+.2f} V, SOA use {100 * r['soa_util']:.0f} % at 25 degC, Vceo margin {r['vceo_margin_v']:+.1f} V)"
-        )
+        msgs.append(f"near miss: {p['mpn_n']}/{p['mpn_p']} with Re {r['re_ohm']:g} ohm at {r['rail_min_v']:.1f} V: {r['reason']}")
     return msgs
 
 

@@ -75,7 +75,8 @@ class Problem:
     factor: float  # boards x (1 + spares/100)
     objective: str = "cost"
     forced: dict[str, int] = field(default_factory=dict)  # group -> option index fixed to 1
-    forbidden: list[dict[str, int]] = field(default_factory=list)  # no-good cuts
+    #: No-good cuts: for each cut, not every group may pick one of its listed options.
+    forbidden: list[dict[str, list[int]]] = field(default_factory=list)
 
 
 @dataclass
@@ -158,7 +159,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         expr = pulp.LpAffineExpression(terms)
         m += (expr <= c.rhs) if c.sense == "<=" else (expr >= c.rhs), f"couple_{c_i}"
     for n_i, cut in enumerate(problem.forbidden):
-        m += pulp.lpSum(x[g][o] for g, o in cut.items()) <= len(cut) - 1, f"nogood_{n_i}"
+        m += pulp.lpSum(x[g][o] for g, opts in cut.items() for o in opts) <= len(cut) - 1, f"nogood_{n_i}"
 
     # Line needs as expressions of the choice.
     need_expr: dict[str, list[tuple[pulp.LpVariable, float]]] = {}

@@ -108,8 +108,14 @@ def render_infeasible(term: Terminal, rep: dict) -> None:
         t.add_row(role.replace("_", " "), str(counts.get("candidates", "")), removed, str(counts.get("feasible", "")))
     term.always(t)
     sug = rep.get("suggestions") or {}
-    for k, v in sug.items():
-        term.always(f"suggestion: {k.replace('_', ' ')}: {v}")
+    if "highest_feasible_power_w" in sug:
+        p = sug["highest_feasible_power_w"]
+        term.always(f"suggestion: highest power this catalogue and supply can deliver: {p:.3g} W per channel" if p else "suggestion: no power level designs with this supply and catalogue")
+    if "lowest_feasible_rail_v" in sug:
+        r = sug["lowest_feasible_rail_v"]
+        term.always(f"suggestion: lowest supply that designs the asked power: v_min {r['v_min']:g} V, v_max {r['v_max']:g} V" if r else "suggestion: no supply up to 40 V higher designs the asked power")
+    if "with_pre_regulator" in sug:
+        term.always(f"suggestion: with regulate = \"auto\" the design is {'feasible' if sug['with_pre_regulator'] else 'still infeasible'}")
     _warnings_and_cautions(term, rep)
 
 
@@ -117,3 +123,22 @@ def _warnings_and_cautions(term: Terminal, rep: dict) -> None:
     for w in rep.get("warnings", []):
         term.print(f"[yellow]warning:[/] {w}")
     term.print(Panel("\n".join(f"- {c}" for c in rep["cautions"]), title="Safety", border_style="red", expand=False))
+
+
+def render_alternatives(term: Terminal, reps: list[dict]) -> None:
+    """The N best distinct designs (different output pair or driver), each with its total."""
+    t = Table(title="Alternatives (each differs in output pair or driver)", box=box.SIMPLE_HEAD, title_justify="left")
+    t.add_column("#", justify="right")
+    t.add_column("output pair")
+    t.add_column("driver")
+    t.add_column("heatsink")
+    t.add_column("feed")
+    t.add_column("total", justify="right")
+    for i, rep in enumerate(reps, start=1):
+        by_role = {p["role"]: p["mpn"] for p in rep["parts"]}
+        t.add_row(
+            str(i), f"{by_role.get('output_npn')}/{by_role.get('output_pnp')}", by_role.get("driver_opamp", ""),
+            by_role.get("heatsink", ""), rep["design"]["bias_feed"].replace("_", " "),
+            f"{rep['totals']['total']:.2f} {rep['totals']['currency']}",
+        )
+    term.always(t)

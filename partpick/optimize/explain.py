@@ -1,0 +1,199 @@
+"""Explanations: why a part is not chosen, what would make a spec feasible, alternatives.
+
+Nearest feasible points are computed, not guessed: the spec quantity is
+bisected (power) or scanned (rail) with full design runs, so every number
+suggested has been designed and solved.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from partpick.catalog import Catalog
+from partpick.optimize.design import DesignResult, run
+from partpick.evaluate.stage import FIRST_FAIL_ORDER
+from partpick.spec import Spec
+
+
+def _with(spec: Spec, section: str, **values) -> Spec:
+    sub = getattr(spec, section).model_copy(update=values)
+    return spec.model_copy(update={section: sub})
+
+
+def max_feasible_power_w(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), rel_tol: float = 0.01) -> float | None:
+    """Highest power per channel (within ``rel_tol``) this catalogue and supply can deliver.
+
+    Bisects between a power that designs and one that does not; None when
+    even 1 % of the asked power cannot be built.
+    """
+    hi = spec.output.power_w
+    lo = hi / 100.0
+
+    def ok(p: float) -> bool:
+        return run(_with(spec, "output", power_w=p), catalog, exclude=exclude).feasible
+
+    if ok(hi):
+        return hi
+    if not ok(lo):
+        return None
+    while hi - lo > rel_tol * lo:
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if ok(mid) else (lo, mid)
+    return round(lo, 3)
+
+
+def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), step_v: float = 0.5, span_v: float = 40.0) -> tuple[float, float] | None:
+    """The lowest (v_min, v_max), keeping the spec's spread, on a ``step_v`` grid that designs.
+
+    Scans upward from the spec's v_min (a lower rail is tried first, up to
+    ``span_v`` above); None if nothing in that range designs.
+    """
+    spread = spec.supply.v_max - spec.supply.v_min
+
+    def ok(v: float) -> bool:
+        return run(_with(spec, "supply", v_min=float(v), v_max=float(v + spread)), catalog, exclude=exclude).feasible
+
+    start = spec.supply.v_min
+    coarse = 4 * step_v
+    prev = start
+    for v in np.arange(start, start + span_v + 1e-9, coarse):
+        if ok(v):
+            # Refine between the last failing coarse point and this one.
+            for w in np.arange(prev + step_v, v, step_v):
+                if ok(w):
+                    v = w
+                    break
+            return (round(float(v), 3), round(float(v + spread), 3))
+        prev = v
+    return None
+
+
+def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = ()) -> dict:
+    """What would make an infeasible spec feasible, each point designed in full."""
+    out: dict = {}
+    p = max_feasible_power_w(spec, catalog, exclude)
+    out["highest_feasible_power_w"] = p
+    rail = lowest_feasible_rail(spec, catalog, exclude)
+    out["lowest_feasible_rail_v"] = None if rail is None else {"v_min": rail[0], "v_max": rail[1]}
+    if spec.supply.arrangement == "single" and spec.supply.regulate == "never":
+        trial = _with(spec, "supply", regulate="auto")
+        out["with_pre_regulator"] = bool(run(trial, catalog, exclude=exclude).feasible)
+    return out
+
+
+@dataclass
+class WhyAnswer:
+    mpn: str
+    role: str | None
+    chosen: bool
+    reason: str
+    forced_total: float | None = None
+    optimum_total: float | None = None
+
+
+def _roles_of(catalog: Catalog, mpn: str) -> list[str]:
+    tr = catalog.transistors
+    roles = []
+    if mpn in set(tr["mpn"]):
+        pol = tr.set_index("mpn").loc[mpn, "polarity"]
+        roles += ["output_npn" if pol == "npn" else "output_pnp", "bias_source_transistor"]
+    if mpn in set(catalog.opamps["mpn"]):
+        roles.append("driver_opamp")
+    if mpn in set(catalog.heatsinks["mpn"]):
+        roles.append("heatsink")
+    if mpn in set(catalog.diodes["mpn"]):
+        roles += ["bias_diode", "bias_source_reference"]
+    if mpn in set(catalog.regulators["mpn"]):
+        roles.append("regulator")
+    if mpn in set(catalog.passives["family"]):
+        roles.append("passive")
+    return roles
+
+
+def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), solver: str = "cbc") -> WhyAnswer:
+    """Why ``mpn`` is not in the optimal design, or what forcing it would cost."""
+    roles = _roles_of(catalog, mpn)
+    if not roles:
+        from partpick.errors import InputError, Problem
+
+        raise InputError([Problem("command line", 0, "MPN", f"'{mpn}' is not a part or family of the catalogue")])
+    best = run(spec, catalog, exclude=exclude, solver=solver)
+    if mpn in best.pool.left_out:
+        return WhyAnswer(mpn, roles[0], False, f"left out before any check: {best.pool.left_out[mpn]}")
+    if best.feasible and best.assembly is not None:
+        used = {src for g, o in best.solution.choice.items() for src, _q, _r in _sources(best, g, o)}
+        if mpn in used:
+            return WhyAnswer(mpn, roles[0], True, "it is in the optimal design", best.solution.total, best.solution.total)
+    reason = _first_rejection(best, mpn, roles)
+    if reason is not None and not _usable(best, mpn):
+        return WhyAnswer(mpn, roles[0], False, reason)
+    role = roles[0]
+    forced = run(spec, catalog, exclude=exclude, solver=solver, forced={role: mpn})
+    opt = best.solution.total if best.feasible else None
+    if not forced.feasible:
+        msg = reason or "it passes its own checks, but no design with it meets the couplings with the other roles (driver, heatsink, diode) from the parts on offer"
+        return WhyAnswer(mpn, role, False, msg, None, opt)
+    return WhyAnswer(mpn, role, False, "feasible but not the cheapest", forced.solution.total, opt)
+
+
+def _sources(result: DesignResult, group: str, option: int):
+    for line, q, role in result.assembly.problem.groups[group].usage[option]:
+        yield result.assembly.lines[line][0], q, role
+
+
+def _usable(result: DesignResult, mpn: str) -> bool:
+    asm = result.assembly
+    if asm is None or asm.problem is None:
+        return False
+    return any(src == mpn for g in asm.problem.groups for o in range(len(asm.problem.groups[g])) for src, _q, _r in _sources(result, g, o))
+
+
+def _first_rejection(result: DesignResult, mpn: str, roles: list[str]) -> str | None:
+    """The rejection of the candidate that came furthest, as a sentence with numbers."""
+    if roles[0] in ("output_npn", "output_pnp"):
+        pairs = result.stage.pairs
+        mine = set(np.flatnonzero((pairs["mpn_n"] == mpn) | (pairs["mpn_p"] == mpn)))
+        if not mine:
+            return "no complementary partner in the catalogue (pairing = \"complement\"; set pairing = \"any\" to pair by package)"
+        rej = result.stage.rejected
+        rej = rej[rej["pair_i"].isin(mine)]
+        if rej.empty:
+            return None
+        order = {name: i for i, name in enumerate(FIRST_FAIL_ORDER)}
+        furthest = rej.assign(depth=rej["rejected_by"].map(order)).sort_values(["depth", "headroom_v"], ascending=[False, False])
+        return str(furthest["reason"].iloc[0])
+    if result.assembly is None:
+        return None
+    for role in roles:
+        frame = result.assembly.candidates.get(role)
+        if frame is not None and "mpn" in frame and mpn in set(frame["mpn"]):
+            row = frame[frame["mpn"] == mpn].iloc[0]
+            if not row["feasible"]:
+                return str(row["rejected_by"])
+    return None
+
+
+def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] = (), solver: str = "cbc") -> list[DesignResult]:
+    """The n best distinct designs: each differs from the earlier ones in output pair or driver."""
+    first = run(spec, catalog, exclude=exclude, solver=solver)
+    out = [first] if first.feasible else []
+    if not out:
+        return out
+    from partpick.optimize.milp import solve
+    from partpick.optimize.design import check_chosen
+
+    problem = first.assembly.problem
+    k = first.assembly.tables["stage"]
+    for _ in range(n - 1):
+        last = out[-1].solution.choice
+        same_pair = list(np.flatnonzero(k["pair_i"].to_numpy() == k["pair_i"].iloc[last["stage"]]))
+        problem.forbidden.append({"stage": same_pair, "driver_opamp": [last["driver_opamp"]]})
+        sol = solve(problem, solver=solver)
+        if sol.status == "infeasible":
+            break
+        check = check_chosen(first.spec, first.pool, first.targets, first.stage, first.assembly, sol.choice)
+        out.append(DesignResult(first.spec, first.pool, first.targets, first.stage, first.assembly, sol, check, "ok" if sol.status == "optimal" else sol.status, list(first.warnings)))
+    problem.forbidden.clear()
+    return out
