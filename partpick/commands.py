@@ -58,6 +58,9 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
             write_json(args.json, rep)
         render_infeasible(term, rep)
         return EXIT_INFEASIBLE
+    from partpick.optimize.explain import compare_feeds
+
+    rep = build_report(result, catalog.file_sha256, args.solver, compare_feeds(result, catalog, tuple(args.exclude), args.solver))
     if args.json:
         write_json(args.json, rep)
     if args.bom:

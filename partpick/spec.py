@@ -24,7 +24,9 @@ else:  # pragma: no cover
 
 
 class _Section(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    # strict: TOML values are typed, so "yes" for a bool or "10" for a number is an
+    # error, not a silent conversion (arrays are still accepted for the tuple keys).
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
 
 
 class OutputSpec(_Section):
@@ -86,14 +88,14 @@ class OrderSpec(_Section):
     boards: int = Field(default=1, ge=1, le=1_000_000)
     spares_pct: float = Field(default=0.0, ge=0, le=1000)
     objective: Literal["cost", "lines"] = "cost"
-    suppliers: tuple[str, ...] = ()
-    exclude: tuple[str, ...] = ()
+    suppliers: tuple[str, ...] = Field(default=(), strict=False)
+    exclude: tuple[str, ...] = Field(default=(), strict=False)
 
 
 class Spec(BaseModel):
     """One amplifier to design: every key of the spec file, defaults filled in."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
 
     name: str = "unnamed design"
     output: OutputSpec
@@ -165,7 +167,10 @@ def _problems(text: str, label: str, exc: ValidationError) -> list[Problem]:
 
 
 def _key_line(text: str, loc: list[str]) -> int:
-    """The line where ``loc`` (section, key) is written; 0 when it is not written."""
+    """The line where ``loc`` (section, key) is written; 0 when it is not written.
+
+    A top-level name may also be written as a table header (``[name]``).
+    """
     section = loc[0] if len(loc) > 1 else None
     key = loc[-1] if len(loc) > 1 else loc[0]
     current = None
@@ -175,11 +180,17 @@ def _key_line(text: str, loc: list[str]) -> int:
         header = re.match(r"^\[([^\]]+)\]", stripped)
         if header:
             current = header.group(1).strip()
-            if current == section:
+            if current == section and not section_line:
                 section_line = number
+            if section is None and current == key:
+                return number
             continue
         if current == section and re.match(rf"^{re.escape(key)}\s*=", stripped):
             return number
+        if current is None and section is not None and not section_line and re.match(
+            rf"^{re.escape(section)}\s*=", stripped
+        ):
+            section_line = number  # the section written as an inline table
     return section_line
 
 

@@ -170,14 +170,17 @@ def _records(text: str) -> Iterator[tuple[int, list[str] | str]]:
     """CSV records with their physical line; ``#`` lines and blank lines skipped.
 
     A record the CSV reader cannot parse comes as its error message (a str).
+    A record spanning several lines (a quoted cell with a line break, or an
+    unclosed quote) is named by the line it starts on.
     """
-    state = {"line": 0}
+    state: dict[str, int | None] = {"start": None}
 
     def lines() -> Iterator[str]:
         for number, line in enumerate(text.splitlines(), start=1):
             if not line.strip() or line.lstrip().startswith("#"):
                 continue
-            state["line"] = number
+            if state["start"] is None:
+                state["start"] = number
             yield line
 
     reader = csv.reader(lines(), strict=True)
@@ -187,9 +190,11 @@ def _records(text: str) -> Iterator[tuple[int, list[str] | str]]:
         except StopIteration:
             return
         except csv.Error as exc:
-            yield state["line"], f"unreadable CSV: {exc}"
+            start, state["start"] = state["start"], None
+            yield int(start or 0), f"unreadable CSV: {exc}"
             continue
-        yield state["line"], cells
+        start, state["start"] = state["start"], None
+        yield int(start or 0), cells
 
 
 def _header_problems(label: str, line: int, header: list[str], model: type[Row]) -> list[Problem]:
@@ -343,7 +348,7 @@ def _transistor_checks(label: str, tr: pd.DataFrame) -> list[Problem]:
             try:
                 volts, amps = parse_soa_dc(row.soa_dc)
             except ValueError as exc:
-                problems.append(Problem(label, line, "soa_dc", str(exc)))
+                problems.append(Problem(label, line, "soa_dc", str(exc).removeprefix("soa_dc: ")))
                 continue
             if volts[-1] > row.vceo_v * (1 + 1e-9):
                 problems.append(Problem(label, line, "soa_dc", f"goes beyond vceo_v ({row.vceo_v:g} V)"))

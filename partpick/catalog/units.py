@@ -13,8 +13,9 @@ from __future__ import annotations
 import math
 import re
 
-#: SI prefixes accepted in value cells; ``R`` (and ``E``, used on some drawings)
-#: mark the decimal point of a resistance in the IEC 60062 code.
+#: SI prefixes accepted in value cells; ``R`` marks the decimal point of a
+#: resistance in the IEC 60062 code. ``E`` is not taken: ``4E7`` would clash
+#: with the exponent notation of a plain number.
 PREFIXES: dict[str, float] = {
     "p": 1e-12,
     "n": 1e-9,

@@ -232,6 +232,7 @@ def _soa_utilisation(pool: Pool, pairs: pd.DataFrame, rails: pd.DataFrame, spec:
 def re_options(pool: Pool, targets: Targets) -> pd.DataFrame:
     """(family, Re value) options: low-ohm resistor values in 0.1..1 ohm rated for 2 x P_Re."""
     rows = []
+    too_weak = 0
     for fam in pool.passives[pool.passives["kind"] == "resistor"].itertuples(index=False):
         lo, hi = max(RE_MIN_OHM, fam.value_min), min(RE_MAX_OHM, fam.value_max)
         if lo > hi * (1 + 1e-9):
@@ -241,7 +242,11 @@ def re_options(pool: Pool, targets: Targets) -> pd.DataFrame:
         for v, pw in zip(values, np.atleast_1d(p)):
             if fam.power_w >= RESISTOR_POWER_MARGIN * pw:
                 rows.append(dict(family=fam.family, value_ohm=float(v), power_w=float(pw), rating_w=fam.power_w))
-    return pd.DataFrame(rows, columns=["family", "value_ohm", "power_w", "rating_w"])
+            else:
+                too_weak += 1
+    out = pd.DataFrame(rows, columns=["family", "value_ohm", "power_w", "rating_w"])
+    out.attrs["too_weak"] = too_weak
+    return out
 
 
 # --------------------------------------------------------------------------- the table
@@ -267,6 +272,11 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     re_values = np.unique(res["value_ohm"].to_numpy(float)) if len(res) else np.array([])
     n_r, n_p, n_e = len(rails), len(pairs), len(re_values)
     funnel = {f"regulator: {k}": v for k, v in reg_funnel.items()}
+    funnel["emitter resistor power (s.7): family-value options too weak"] = res.attrs.get("too_weak", 0)
+    if n_r == 0:
+        funnel["no rail option"] = 1
+    if n_p == 0:
+        funnel["no output pair (complements or packages)"] = 1
     if n_r * n_p * n_e == 0:
         return _empty(rails, pairs, res, funnel, n_r * n_p * n_e)
 
@@ -323,14 +333,15 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     rth_max = rth_max[core_ok]
 
     feeds = _feeds(spec, pool, targets, core, vd_min)
-    k = core.iloc[feeds["core_i"].to_numpy()].reset_index(drop=True)
+    core_i = feeds["core_i"].to_numpy().astype(int)
+    k = core.iloc[core_i].reset_index(drop=True)
     k["feed"] = feeds["feed"].to_numpy()
     k["ccs_n_i"] = feeds["ccs_n_i"].to_numpy()
     k["ccs_p_i"] = feeds["ccs_p_i"].to_numpy()
     k["ref_i"] = feeds["ref_i"].to_numpy()
     k["ref_per_source"] = feeds["ref_per_source"].to_numpy()
     k["standing_a"] = feeds["standing_a"].to_numpy()
-    rth_k = rth_max[feeds["core_i"].to_numpy()]
+    rth_k = rth_max[core_i]
     unserved = feeds.attrs["unserved"]
     funnel["bias feed (s.3)"] = int(len(unserved))
     feed_rejected = core.iloc[unserved].copy()

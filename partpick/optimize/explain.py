@@ -197,3 +197,35 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
         out.append(DesignResult(first.spec, first.pool, first.targets, first.stage, first.assembly, sol, check, "ok" if sol.status == "optimal" else sol.status, list(first.warnings)))
     problem.forbidden.clear()
     return out
+
+
+def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ...] = (), solver: str = "cbc") -> dict | None:
+    """With ``bias_feed = "auto"``: the other feed's best design, or why it has none.
+
+    Returns ``{"feed", "feasible", "total", "extra_cost", "reason"}`` for the
+    feed that was not chosen; None when the spec fixes the feed.
+    """
+    if result.spec.stage.bias_feed != "auto" or not result.feasible:
+        return None
+    chosen = result.check.design["bias_feed"]
+    other = "resistor" if chosen == "current_source" else "current_source"
+    alt = run(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver)
+    if alt.feasible:
+        extra = alt.solution.total - result.solution.total
+        return {"feed": other, "feasible": True, "total": round(alt.solution.total, 2), "extra_cost": round(extra, 2),
+                "reason": f"the best {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
+    k = result.assembly.tables["stage"].iloc[result.solution.choice["stage"]]
+    rej = alt.stage.rejected
+    mine = rej[(rej["pair_i"] == k["pair_i"]) & (rej["rejected_by"] == "bias feed (s.3)")] if len(rej) else rej
+    if len(mine):
+        reason = str(mine["reason"].iloc[0])
+    else:
+        causes = infeasible_reasons(alt)
+        reason = causes[0] if causes else "no design with it meets the couplings with the other roles"
+    return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
+
+
+def infeasible_reasons(result: DesignResult) -> list[str]:
+    from partpick.optimize.design import infeasible_cause
+
+    return infeasible_cause(result)

@@ -82,7 +82,7 @@ def spec_dict(result: DesignResult) -> dict:
     return s
 
 
-def build_report(result: DesignResult, catalog_hashes: dict[str, str] | None = None, solver: str = "cbc") -> dict:
+def build_report(result: DesignResult, catalog_hashes: dict[str, str] | None = None, solver: str = "cbc", feed_comparison: dict | None = None) -> dict:
     """The full report dict, keys in a stable order."""
     rep: dict = {"schema": SCHEMA, "status": "ok" if result.feasible else "infeasible"}
     rep["spec"] = spec_dict(result)
@@ -97,6 +97,8 @@ def build_report(result: DesignResult, catalog_hashes: dict[str, str] | None = N
     assert result.check is not None and result.solution is not None
     d = result.check.design
     rep["design"] = {k: (_r(v) if not isinstance(v, str) else v) for k, v in d.items()}
+    if feed_comparison is not None:
+        rep["design"]["bias_feed_alternative"] = feed_comparison
     rep["optimal"] = result.status == "ok"
     parts = role_parts(result)
     refs = designators(parts, result.targets.channels)

@@ -27,11 +27,11 @@ class Terminal:
         self.out.print(*objects, **kwargs)
 
     def error(self, message: str) -> None:
-        self.err.print(f"[bold red]error:[/] {message}", highlight=False)
+        self.err.print(f"[bold red]error:[/] {message}", highlight=False, soft_wrap=True)
 
     def print_problems(self, problems: list[Problem]) -> None:
         for p in problems:
-            self.err.print(str(p), markup=False, highlight=False)
+            self.err.print(str(p), markup=False, highlight=False, soft_wrap=True)
         self.err.print(
             f"[bold red]{len(problems)} problem{'s' if len(problems) != 1 else ''}[/] "
             "in the input; nothing was chosen.",
@@ -61,7 +61,7 @@ def print_catalog_summary(term: Terminal, catalog) -> None:
     t.add_row(
         "transistors",
         str(len(tr)),
-        f"{pairs} complement-listed pairs; {int(tr['soa_dc'].notna().sum())} with SOA curves; "
+        f"{pairs} complement-listed pairs; {int(tr['soa_dc'].notna().sum())} devices with SOA curves; "
         f"packages {', '.join(sorted(set(tr['package'])))}",
     )
     op = catalog.opamps

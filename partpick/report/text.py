@@ -53,9 +53,12 @@ def render_design(term: Terminal, rep: dict) -> None:
     title = f"{rep['spec']['name']}"
     sub = "optimal" if rep.get("optimal") else "[yellow]not proven optimal[/]"
     term.print(Panel(grid, title=title, subtitle=sub, expand=False))
+    alt = d.get("bias_feed_alternative")
+    if alt:
+        term.print(f"bias feed: {d['bias_feed'].replace('_', ' ')} chosen; {alt['feed'].replace('_', ' ')}: {alt['reason']}")
 
     bom = Table(title="Parts", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
-    bom.add_column("role", overflow="fold", max_width=16)
+    bom.add_column("role", overflow="fold", min_width=16, max_width=22)
     bom.add_column("part", overflow="fold")
     bom.add_column("/ch", justify="right")
     bom.add_column("qty", justify="right")
@@ -66,7 +69,8 @@ def render_design(term: Terminal, rep: dict) -> None:
         b = p["binding"]
         if b:
             unit = f" {b['unit']}" if b["unit"] else ""
-            val = f"{b['margin']:+.3g}{unit}" if b["unit"] else f"{100 * b['margin']:+.0f} %"
+            val = f"{b['margin'] + 0.0:+.3g}{unit}" if b["unit"] else f"{100 * b['margin'] + 0.0:+.0f} %"
+            val = val.replace("-0 ", "+0 ").replace("-0%", "+0%")
             tight = Text(f"{b['constraint']} {val}", style=_tight_style(b["fraction"]))
         else:
             tight = Text("")
@@ -74,21 +78,26 @@ def render_design(term: Terminal, rep: dict) -> None:
     term.print(bom)
 
     order = Table(title="Order", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
-    order.add_column("supplier", overflow="fold", max_width=14)
     order.add_column("part", overflow="fold")
     order.add_column("qty", justify="right")
     order.add_column("break", justify="right")
     order.add_column("unit", justify="right")
     order.add_column("total", justify="right")
-    for o in rep["order"]:
-        part = o["mpn"] + (f" {o['value']}" if o["value"] else "")
-        qty = f"{o['qty']}" + (f" ({o['needed']})" if o["qty"] != o["needed"] else "")
-        order.add_row(o["supplier"], part, qty, str(o["price_break"]), f"{o['unit_price']:.4g}", f"{o['extended_price']:.2f}")
     t = rep["totals"]
-    for s, fee in t["fees_by_supplier"].items():
+    suppliers = sorted({o["supplier"] for o in rep["order"]})
+    for s_i, sup in enumerate(suppliers):
+        mine = [o for o in rep["order"] if o["supplier"] == sup]
+        fee = t["fees_by_supplier"].get(sup, 0.0)
+        subtotal = sum(o["extended_price"] for o in mine) + fee
+        order.add_row(Text(sup, style="bold"), "", "", "", Text(f"{subtotal:.2f}", style="bold"), end_section=False)
+        for o in mine:
+            part = "  " + o["mpn"] + (f" {o['value']}" if o["value"] else "")
+            qty = f"{o['qty']}" + (f" ({o['needed']})" if o["qty"] != o["needed"] else "")
+            order.add_row(part, qty, str(o["price_break"]), f"{o['unit_price']:.4g}", f"{o['extended_price']:.2f}")
         if fee:
-            order.add_row(s, "order fee", "", "", "", f"{fee:.2f}")
-    order.add_row("", Text("total", style="bold"), "", "", "", Text(f"{t['total']:.2f} {cur}", style="bold"))
+            order.add_row("  order fee", "", "", "", f"{fee:.2f}")
+        order.add_row("", "", "", "", "", end_section=s_i == len(suppliers) - 1)
+    order.add_row(Text("total", style="bold"), "", "", "", Text(f"{t['total']:.2f} {cur}", style="bold"))
     term.print(order)
     term.print(f"{t['boards']} board(s): {t['per_board']:.2f} {cur} per board; parts {t['parts']:.2f} + fees {t['fees']:.2f}")
     _warnings_and_cautions(term, rep)

@@ -1,0 +1,666 @@
+"""The selection-and-buying MILP against exact searches written here, without PuLP.
+
+Two independent exact routes:
+
+* :func:`brute_force` - every combination of one option per group
+  (``itertools.product``), the feasible ones kept by ``check_choice`` plus the
+  forced and forbidden rules, each priced exactly: for every subset Y of the
+  suppliers, fees of Y plus, per line, the cheapest way to buy at least the
+  need from suppliers in Y (:func:`cheapest_line_cost`, a dynamic programme
+  over suppliers); the minimum over Y is the true order cost, since paying the
+  fee of a supplier that is not used only adds cost.
+* :func:`decomposed_optimum` - the same optimum for catalogue-sized problems:
+  one group (the pivot, ``stage`` when present) is enumerated, the other groups
+  split into components that share no line, coupling, compatibility link or
+  no-good cut once the pivot is fixed, and each component is enumerated on its
+  own (vectorised with numpy). It is checked against :func:`brute_force` here
+  and used on the shipped examples in ``test_design_cases.py``.
+
+Random problems come from hypothesis; the hand-written ones have answers
+worked by hand in the comments.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from partpick.optimize.milp import (
+    Coupling,
+    Group,
+    Offer,
+    Problem,
+    Solution,
+    ceil_units,
+    check_choice,
+    line_need,
+    solve,
+)
+
+#: Agreement asked of two routes to the same optimum [currency].
+COST_TOL = 1e-6
+
+
+# --------------------------------------------------------------------------- exact line pricing
+
+
+def supplier_subsets(problem: Problem) -> list[frozenset[str]]:
+    """Every subset Y of the problem's suppliers (the empty one included)."""
+    names = sorted(problem.fees)
+    return [frozenset(c) for r in range(len(names) + 1) for c in itertools.combinations(names, r)]
+
+
+def cheapest_line_cost(offers: Sequence[Offer], need: int, allowed: frozenset[str]) -> float:
+    """Cheapest cost of at least ``need`` units from the suppliers in ``allowed``.
+
+    Dynamic programme over suppliers: ``best[a]`` is the cheapest way to hold
+    ``a`` units (``a`` capped at ``need``) from the suppliers seen so far. A
+    supplier adds nothing, or ``q`` units at one of its breaks, with
+    ``max(min_qty, moq) <= q <= stock`` at that break's unit price. Buying more
+    than ``max(low, need - a)`` never helps (prices are not negative).
+
+    Parameters
+    ----------
+    offers : the line's offer rows (one per supplier price break)
+    need : whole units wanted
+    allowed : suppliers an order may be placed with
+
+    Returns
+    -------
+    float
+        Parts cost [currency]; ``inf`` when the stock on offer cannot cover the need.
+    """
+    if need <= 0:
+        return 0.0
+    best = np.full(need + 1, np.inf)
+    best[0] = 0.0
+    by_supplier: dict[str, list[Offer]] = {}
+    for off in offers:
+        if off.supplier in allowed:
+            by_supplier.setdefault(off.supplier, []).append(off)
+    held = np.arange(need + 1)
+    for supplier in sorted(by_supplier):
+        new = best.copy()
+        for off in by_supplier[supplier]:
+            low = max(off.min_qty, off.moq, 1)
+            top = min(off.stock, max(low, need))
+            for q in range(low, top + 1):
+                # From every state a < need, q more units reach min(need, a + q).
+                reach = np.minimum(need, held[:-1] + q)
+                np.minimum.at(new, reach, best[:-1] + q * off.unit_price)
+        best = new
+    return float(best[need])
+
+
+class LinePricer:
+    """Memoised :func:`cheapest_line_cost` per (line, need, supplier subset)."""
+
+    def __init__(self, problem: Problem) -> None:
+        self.problem = problem
+        self.memo: dict[tuple[str, int, frozenset[str]], float] = {}
+
+    def __call__(self, line: str, need: int, allowed: frozenset[str]) -> float:
+        key = (line, need, allowed)
+        if key not in self.memo:
+            self.memo[key] = cheapest_line_cost(self.problem.line_offers.get(line, []), need, allowed)
+        return self.memo[key]
+
+
+@dataclass
+class Optimum:
+    """An exact optimum: distinct lines bought, order cost and one choice reaching it."""
+
+    lines: int
+    cost: float
+    choice: dict[str, int]
+
+
+def _better(a: tuple[int, float], b: tuple[int, float] | None, objective: str) -> bool:
+    if b is None:
+        return True
+    if objective == "lines" and a[0] != b[0]:
+        return a[0] < b[0]
+    return a[1] < b[1] - 1e-12
+
+
+def order_cost(problem: Problem, need: dict[str, int], pricer: LinePricer | None = None) -> float:
+    """Exact cheapest order (parts + fees) for fixed whole-unit line needs."""
+    pricer = pricer or LinePricer(problem)
+    best = math.inf
+    for y in supplier_subsets(problem):
+        cost = sum(problem.fees[s] for s in y) + sum(pricer(line, q, y) for line, q in need.items())
+        best = min(best, cost)
+    return best
+
+
+# --------------------------------------------------------------------------- route 1: every combination
+
+
+def brute_force(problem: Problem, objective: str | None = None) -> Optimum | None:
+    """Exact optimum by enumerating every combination (``itertools.product``).
+
+    Objective ``cost``: parts + fees. Objective ``lines``: fewest distinct
+    lines with a need above zero, then cost. None when nothing is feasible.
+    """
+    objective = objective or problem.objective
+    names = list(problem.groups)
+    pricer = LinePricer(problem)
+    best: tuple[int, float] | None = None
+    best_choice: dict[str, int] = {}
+    for combo in itertools.product(*(range(len(problem.groups[g])) for g in names)):
+        choice = dict(zip(names, combo))
+        if any(choice[g] != o for g, o in problem.forced.items()):
+            continue
+        if any(all(choice[g] in opts for g, opts in cut.items()) for cut in problem.forbidden):
+            continue
+        if check_choice(problem, choice):
+            continue
+        need = {line: ceil_units(q) for line, q in line_need(problem, choice).items()}
+        cost = order_cost(problem, need, pricer)
+        if not math.isfinite(cost):
+            continue
+        key = (sum(1 for q in need.values() if q > 0), cost)
+        if _better(key, best, objective):
+            best, best_choice = key, choice
+    return None if best is None else Optimum(best[0], best[1], best_choice)
+
+
+# --------------------------------------------------------------------------- route 2: pivot + components
+
+
+def _pick_pivot(problem: Problem) -> str:
+    g = problem.groups
+    if "stage" in g and g["stage"].parent is None:
+        return "stage"
+    return next(name for name, grp in g.items() if grp.parent is None)
+
+
+def _components(problem: Problem, pivot: str) -> list[list[str]]:
+    """Groups other than the pivot, joined when they share a line, coupling, link or cut."""
+    others = [g for g in problem.groups if g != pivot]
+    root = {g: g for g in others}
+
+    def find(a: str) -> str:
+        while root[a] != a:
+            root[a] = root[root[a]]
+            a = root[a]
+        return a
+
+    def join(names: list[str]) -> None:
+        names = [n for n in names if n != pivot]
+        for n in names[1:]:
+            root[find(n)] = find(names[0])
+
+    owners: dict[str, list[str]] = {}
+    for g in others:
+        for usage in problem.groups[g].usage:
+            for line, _q, _r in usage:
+                if g not in owners.setdefault(line, []):
+                    owners[line].append(g)
+    for gs in owners.values():
+        join(gs)
+    for c in problem.couplings:
+        join(list(c.terms))
+    for cut in problem.forbidden:
+        join(list(cut))
+    for g in others:
+        parent = problem.groups[g].parent
+        if parent is not None and parent != pivot:
+            join([g, parent])
+    comps: dict[str, list[str]] = {}
+    for g in others:
+        comps.setdefault(find(g), []).append(g)
+    return list(comps.values())
+
+
+def decomposed_optimum(
+    problem: Problem,
+    objective: str | None = None,
+    pivot: str | None = None,
+    pivot_options: Sequence[int] | None = None,
+) -> Optimum | None:
+    """Exact optimum by enumerating the pivot group and each independent component.
+
+    For every supplier subset Y and every pivot option p, the cost is
+    fees(Y) + the lines only the pivot uses + the sum over components of each
+    component's cheapest feasible combination (its lines priced with the
+    pivot's units of the same lines added). ``pivot_options`` restricts the
+    pivot (as ``forced`` would). None when nothing is feasible.
+    """
+    objective = objective or problem.objective
+    pivot = pivot or _pick_pivot(problem)
+    groups = problem.groups
+    comps = _components(problem, pivot)
+    comp_lines = [sorted({l for g in c for u in groups[g].usage for l, _q, _r in u}) for c in comps]
+    in_comp = {l for ls in comp_lines for l in ls}
+    pricer = LinePricer(problem)
+    memo: dict[tuple, tuple[int, float, dict[str, int]] | None] = {}
+    options = range(len(groups[pivot])) if pivot_options is None else pivot_options
+    best: tuple[int, float] | None = None
+    best_choice: dict[str, int] = {}
+    for y in supplier_subsets(problem):
+        fees = sum(problem.fees[s] for s in y)
+        for p in options:
+            if pivot in problem.forced and problem.forced[pivot] != p:
+                continue
+            if not _pivot_alone_ok(problem, pivot, p):
+                continue
+            base: dict[str, float] = {}
+            for line, per_board, _r in groups[pivot].usage[p]:
+                base[line] = base.get(line, 0.0) + per_board
+            lines, cost = 0, fees
+            for line, per_board in base.items():
+                if line not in in_comp:
+                    q = ceil_units(per_board * problem.factor)
+                    lines += q > 0
+                    cost += pricer(line, q, y)
+            choice = {pivot: p}
+            for ci, comp in enumerate(comps):
+                res = _component_best(problem, pivot, p, comp, comp_lines[ci], base, y, pricer, objective, memo, ci)
+                if res is None:
+                    cost = math.inf
+                    break
+                lines += res[0]
+                cost += res[1]
+                choice.update(res[2])
+            if not math.isfinite(cost):
+                continue
+            if _better((lines, cost), best, objective):
+                best, best_choice = (lines, cost), choice
+    return None if best is None else Optimum(best[0], best[1], {g: best_choice[g] for g in groups})
+
+
+def _pivot_alone_ok(problem: Problem, pivot: str, p: int) -> bool:
+    """Couplings and cuts that involve the pivot alone."""
+    for c in problem.couplings:
+        if set(c.terms) == {pivot}:
+            lhs = float(c.terms[pivot][p])
+            if not (lhs <= c.rhs + 1e-9 if c.sense == "<=" else lhs >= c.rhs - 1e-9):
+                return False
+    return not any(set(cut) == {pivot} and p in cut[pivot] for cut in problem.forbidden)
+
+
+def _component_best(problem, pivot, p, comp, lines, base, y, pricer, objective, memo, ci):
+    """Cheapest feasible combination of one component with the pivot fixed to ``p``."""
+    groups = problem.groups
+    allowed = []
+    for g in comp:
+        opts = np.arange(len(groups[g]))
+        if g in problem.forced:
+            opts = opts[opts == problem.forced[g]]
+        if groups[g].parent == pivot:
+            opts = np.array([o for o in opts if p in set(np.asarray(groups[g].compat[o]).tolist())], dtype=int)
+        allowed.append(opts)
+    couplings = [c for c in problem.couplings if any(g in comp for g in c.terms)]
+    offsets = tuple(float(c.terms[pivot][p]) if pivot in c.terms else 0.0 for c in couplings)
+    cuts = [cut for cut in problem.forbidden if any(g in comp for g in cut) and p in cut.get(pivot, [p])]
+    base_key = tuple((l, base[l]) for l in lines if l in base)
+    key = (ci, y, tuple(tuple(a.tolist()) for a in allowed), offsets, tuple(map(id, cuts)), base_key)
+    if key in memo:
+        return memo[key]
+    if any(len(a) == 0 for a in allowed):
+        memo[key] = None
+        return None
+    grid = np.meshgrid(*allowed, indexing="ij")
+    idx = {g: a.ravel() for g, a in zip(comp, grid)}
+    n = len(next(iter(idx.values())))
+    ok = np.ones(n, dtype=bool)
+    for g in comp:
+        parent = groups[g].parent
+        if parent in idx:
+            link = np.zeros((len(groups[g]), len(groups[parent])), dtype=bool)
+            for o, compat in enumerate(groups[g].compat):
+                link[o, np.asarray(compat, dtype=int)] = True
+            ok &= link[idx[g], idx[parent]]
+    for c, off in zip(couplings, offsets):
+        lhs = off + sum(np.asarray(coef, float)[idx[g]] for g, coef in c.terms.items() if g != pivot)
+        ok &= (lhs <= c.rhs + 1e-9) if c.sense == "<=" else (lhs >= c.rhs - 1e-9)
+    for cut in cuts:
+        ok &= ~np.all([np.isin(idx[g], opts) for g, opts in cut.items() if g != pivot], axis=0)
+    cost = np.zeros(n)
+    count = np.zeros(n, dtype=int)
+    for line in lines:
+        units = np.full(n, base.get(line, 0.0))
+        for g in comp:
+            per = np.array([sum(q for l, q, _r in u if l == line) for u in groups[g].usage])
+            units = units + per[idx[g]]
+        need = np.ceil(np.round(units * problem.factor, 6)).astype(int)
+        prices = {q: pricer(line, int(q), y) for q in np.unique(need)}
+        cost += np.array([prices[q] for q in need])
+        count += need > 0
+    ok &= np.isfinite(cost)
+    if not ok.any():
+        memo[key] = None
+        return None
+    cand = np.flatnonzero(ok)
+    order = np.lexsort((cost[cand], count[cand])) if objective == "lines" else np.argsort(cost[cand], kind="stable")
+    i = int(cand[order[0]])
+    memo[key] = (int(count[i]), float(cost[i]), {g: int(idx[g][i]) for g in comp})
+    return memo[key]
+
+
+# --------------------------------------------------------------------------- checks of a MILP solution
+
+
+def assert_plan_valid(problem: Problem, sol: Solution) -> None:
+    """The purchases are a legal order that covers the choice's needs, and the totals add up."""
+    assert not check_choice(problem, sol.choice)
+    for g, o in problem.forced.items():
+        assert sol.choice[g] == o
+    for cut in problem.forbidden:
+        assert not all(sol.choice[g] in opts for g, opts in cut.items())
+    need = {l: ceil_units(q) for l, q in line_need(problem, sol.choice).items()}
+    assert sol.need == need
+    bought: dict[str, int] = {}
+    seen: set[tuple[str, str]] = set()
+    for pur in sol.purchases:
+        offer = next(o for o in problem.line_offers[pur.line] if o.supplier == pur.supplier and o.min_qty == pur.min_qty)
+        assert max(offer.min_qty, offer.moq) <= pur.qty <= offer.stock
+        assert pur.unit_price == offer.unit_price
+        assert (pur.line, pur.supplier) not in seen  # one price break per line and supplier
+        seen.add((pur.line, pur.supplier))
+        bought[pur.line] = bought.get(pur.line, 0) + pur.qty
+    for line, q in need.items():
+        assert bought.get(line, 0) >= q, line
+    assert sol.parts_cost == pytest.approx(sum(p.qty * p.unit_price for p in sol.purchases), abs=COST_TOL)
+    assert sorted(sol.suppliers_used) == sorted({p.supplier for p in sol.purchases})
+    assert sol.fees_cost == pytest.approx(sum(problem.fees[s] for s in sol.suppliers_used), abs=COST_TOL)
+
+
+def distinct_lines(sol: Solution) -> int:
+    return sum(1 for q in sol.need.values() if q > 0)
+
+
+def assert_matches(problem: Problem, exact: Optimum | None, objective: str) -> None:
+    """CBC and HiGHS both reach the exact optimum (or both report infeasible)."""
+    problem = replace(problem, objective=objective)
+    for solver in ("cbc", "highs"):
+        sol = solve(problem, solver)
+        if exact is None:
+            assert sol.status == "infeasible", solver
+            continue
+        assert sol.status == "optimal", solver
+        assert_plan_valid(problem, sol)
+        if objective == "lines":
+            assert distinct_lines(sol) == exact.lines, solver
+        assert sol.total == pytest.approx(exact.cost, abs=COST_TOL), solver
+
+
+# --------------------------------------------------------------------------- random problems
+
+
+@st.composite
+def problems(draw) -> Problem:
+    """Small random problems: 2-4 groups of 1-4 options, a parent link, couplings, shared lines.
+
+    A hidden reference choice is drawn first and the compatibility lists,
+    couplings, forced option and no-good cut are drawn so that it stays
+    feasible, except for a few deliberately impossible rules, so that most
+    problems have an optimum to compare (and some are infeasible).
+    """
+    n_groups = draw(st.integers(2, 4))
+    lines = [f"L{i}" for i in range(draw(st.integers(2, 5)))]  # few lines: options of different groups share them
+    groups: dict[str, Group] = {}
+    for gi in range(n_groups):
+        size = draw(st.integers(1, 4))
+        usage = []
+        for _o in range(size):
+            used = draw(st.lists(st.sampled_from(lines), min_size=0, max_size=2, unique=True))
+            usage.append([(l, float(draw(st.sampled_from([0.5, 1.0, 2.0, 3.0]))), f"role{gi}") for l in used])
+        groups[f"g{gi}"] = Group(f"g{gi}", [f"g{gi}-{o}" for o in range(size)], usage)
+    names = list(groups)
+    ref = {g: draw(st.integers(0, len(groups[g]) - 1)) for g in names}
+    strict = draw(st.integers(0, 9)) == 9  # one problem in ten may have no feasible choice at all
+    child, parent = groups["g1"], groups["g0"]
+    child.parent = "g0"
+    child.compat = []
+    for o in range(len(child)):
+        compat = draw(st.sets(st.integers(0, len(parent) - 1), max_size=len(parent)))
+        if o == ref["g1"] and not strict:
+            compat.add(ref["g0"])
+        child.compat.append(np.array(sorted(compat), dtype=int))
+    couplings = []
+    for ci in range(draw(st.integers(0, 2))):
+        members = draw(st.lists(st.sampled_from(names), min_size=1, max_size=2, unique=True))
+        terms = {g: np.array(draw(st.lists(st.integers(-3, 3), min_size=len(groups[g]), max_size=len(groups[g]))), float) for g in members}
+        sense = draw(st.sampled_from(["<=", ">="]))
+        lhs_ref = sum(terms[g][ref[g]] for g in members)
+        slack = draw(st.integers(0, 2)) - (1 if strict else 0)
+        couplings.append(Coupling(f"c{ci}", terms, sense, float(lhs_ref + slack if sense == "<=" else lhs_ref - slack)))
+    suppliers = [f"S{i}" for i in range(draw(st.sampled_from([3, 2, 1])))]
+    fees = {s: float(draw(st.sampled_from([5, 0, 10, 2, 7]))) for s in suppliers}
+    offers: dict[str, list[Offer]] = {}
+    for line in lines:
+        rows = []
+        for s in suppliers:
+            if not draw(st.booleans()) and rows:
+                continue
+            stock = draw(st.sampled_from([6, 40, 3, 500, 15, 10, 25, 0]))  # small stock forces split buys
+            moq = draw(st.sampled_from([1, 1, 2, 5, 10]))
+            price_cents = draw(st.integers(20, 500))
+            min_qty = draw(st.integers(1, 3))
+            for _t in range(draw(st.integers(1, 3))):
+                rows.append(Offer(s, min_qty, price_cents / 100.0, stock, moq))
+                min_qty += draw(st.integers(1, 12))
+                price_cents = max(1, price_cents - draw(st.integers(1, 80)))  # falling prices
+                if price_cents == 1:
+                    break
+        offers[line] = rows
+    boards = draw(st.integers(1, 5))
+    spares_pct = draw(st.sampled_from([0, 2, 5, 10]))
+    forced = {}
+    if draw(st.integers(0, 3)) == 0:
+        g = draw(st.sampled_from(names))
+        forced[g] = ref[g] if not strict else draw(st.integers(0, len(groups[g]) - 1))
+    forbidden = []
+    if draw(st.integers(0, 2)) == 0:
+        members = draw(st.lists(st.sampled_from(names), min_size=1, max_size=2, unique=True))
+        cut = {g: sorted(draw(st.sets(st.integers(0, len(groups[g]) - 1), min_size=1))) for g in members}
+        if not strict and all(ref[g] in opts for g, opts in cut.items()):
+            g = members[0]
+            cut[g] = [o for o in cut[g] if o != ref[g]] or [o for o in range(len(groups[g])) if o != ref[g]]
+        if all(cut.values()):
+            forbidden.append(cut)
+    return Problem(groups, couplings, offers, fees, boards * (1 + spares_pct / 100.0), "cost", forced, forbidden)
+
+
+SETTINGS = dict(max_examples=40, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+
+
+@settings(**SETTINGS)
+@given(problems())
+def test_milp_equals_brute_force_cost(problem: Problem) -> None:
+    assert_matches(problem, brute_force(problem, "cost"), "cost")
+
+
+@settings(**SETTINGS)
+@given(problems())
+def test_milp_equals_brute_force_lines(problem: Problem) -> None:
+    assert_matches(problem, brute_force(problem, "lines"), "lines")
+
+
+@settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(problems(), st.sampled_from(["cost", "lines"]), st.sampled_from(["g0", "g2"]))
+def test_decomposition_equals_brute_force(problem: Problem, objective: str, pivot: str) -> None:
+    """The component search used on the catalogue examples is itself exact."""
+    pivot = pivot if pivot in problem.groups else "g0"
+    a, b = brute_force(problem, objective), decomposed_optimum(problem, objective, pivot=pivot)
+    assert (a is None) == (b is None)
+    if a is not None:
+        assert (b.lines, b.cost) == (a.lines, pytest.approx(a.cost, abs=COST_TOL))
+        assert not check_choice(problem, b.choice)
+        need = {l: ceil_units(q) for l, q in line_need(problem, b.choice).items()}
+        assert order_cost(problem, need) == pytest.approx(b.cost, abs=COST_TOL)
+
+
+# --------------------------------------------------------------------------- the line pricer itself
+
+
+def test_line_pricer_hand_worked() -> None:
+    # Hand-worked: need 10; S1 has 6 in stock at 1.00, S2 any amount at 1.50:
+    # 6 x 1.00 + 4 x 1.50 = 12.00 (the split); S2 alone 15.00.
+    offers = [Offer("S1", 1, 1.00, 6, 1), Offer("S2", 1, 1.50, 100, 1)]
+    assert cheapest_line_cost(offers, 10, frozenset({"S1", "S2"})) == pytest.approx(12.0)
+    assert cheapest_line_cost(offers, 10, frozenset({"S2"})) == pytest.approx(15.0)
+    assert cheapest_line_cost(offers, 10, frozenset({"S1"})) == math.inf
+    # Breaks: 8 at 1.00 = 8.00 against 10 at 0.70 = 7.00; only one break per supplier.
+    breaks = [Offer("S1", 1, 1.00, 100, 1), Offer("S1", 10, 0.70, 100, 1)]
+    assert cheapest_line_cost(breaks, 8, frozenset({"S1"})) == pytest.approx(7.0)
+    # One break per supplier: 9 units with 5 in stock at each break is not 9 from one supplier.
+    short = [Offer("S1", 1, 1.00, 5, 1), Offer("S1", 2, 0.90, 5, 1)]
+    assert cheapest_line_cost(short, 9, frozenset({"S1"})) == math.inf
+
+
+# --------------------------------------------------------------------------- hand-written problems
+
+
+def _one_line_problem(per_board: float, offers: list[Offer], fees: dict[str, float]) -> Problem:
+    g = Group("part", ["only"], [[("L", per_board, "role")]])
+    return Problem({"part": g}, [], {"L": offers}, fees, 1.0)
+
+
+@pytest.mark.parametrize(
+    ("break_price", "qty", "total"),
+    [
+        (0.70, 10, 7.00),  # 10 x 0.70 = 7.00 < 8 x 1.00: buy up to the break
+        (0.85, 8, 8.00),  # 10 x 0.85 = 8.50 > 8 x 1.00: buy exactly the need
+    ],
+)
+def test_buys_up_to_a_price_break(break_price: float, qty: int, total: float) -> None:
+    p = _one_line_problem(8.0, [Offer("S1", 1, 1.00, 1000, 1), Offer("S1", 10, break_price, 1000, 1)], {"S1": 0.0})
+    assert brute_force(p).cost == pytest.approx(total)
+    for solver in ("cbc", "highs"):
+        sol = solve(p, solver)
+        assert sol.total == pytest.approx(total, abs=COST_TOL)
+        assert [pu.qty for pu in sol.purchases] == [qty]
+
+
+def _two_line_problem(fee: float) -> Problem:
+    g = Group("part", ["only"], [[("A", 2.0, "a"), ("B", 2.0, "b")]])
+    offers = {
+        "A": [Offer("S1", 1, 1.00, 100, 1), Offer("S2", 1, 0.50, 100, 1)],
+        "B": [Offer("S1", 1, 2.00, 100, 1), Offer("S2", 1, 3.00, 100, 1)],
+    }
+    return Problem({"part": g}, [], offers, {"S1": fee, "S2": fee}, 1.0)
+
+
+def test_order_fee_makes_the_split_order_dearer() -> None:
+    # Hand-worked, fee 5 at each supplier: all from S1 = 2 x 1.00 + 2 x 2.00 + 5 = 11.00;
+    # split (A at S2, B at S1) = 1.00 + 4.00 + 10 = 15.00; all from S2 = 1.00 + 6.00 + 5 = 12.00.
+    p = _two_line_problem(5.0)
+    assert brute_force(p).cost == pytest.approx(11.0)
+    for solver in ("cbc", "highs"):
+        sol = solve(p, solver)
+        assert sol.total == pytest.approx(11.0, abs=COST_TOL)
+        assert sol.suppliers_used == ["S1"]
+        assert (sol.parts_cost, sol.fees_cost) == (pytest.approx(6.0), pytest.approx(5.0))
+    # Without fees the split wins: 1.00 + 4.00 = 5.00 from both suppliers.
+    p0 = _two_line_problem(0.0)
+    assert brute_force(p0).cost == pytest.approx(5.0)
+    sol = solve(p0, "cbc")
+    assert sol.total == pytest.approx(5.0, abs=COST_TOL)
+    assert sol.suppliers_used == ["S1", "S2"]
+
+
+def test_stock_limit_forces_a_split() -> None:
+    # Hand-worked: need 10, S1 has 6 at 1.00, S2 100 at 1.50 -> 6 + 4 x 1.50 = 12.00.
+    p = _one_line_problem(10.0, [Offer("S1", 1, 1.00, 6, 1), Offer("S2", 1, 1.50, 100, 1)], {"S1": 0.0, "S2": 0.0})
+    assert brute_force(p).cost == pytest.approx(12.0)
+    for solver in ("cbc", "highs"):
+        sol = solve(p, solver)
+        assert sol.total == pytest.approx(12.0, abs=COST_TOL)
+        assert {(pu.supplier, pu.qty) for pu in sol.purchases} == {("S1", 6), ("S2", 4)}
+
+
+@pytest.mark.parametrize(
+    ("s2_price", "plan", "total"),
+    [
+        (2.50, {("S2", 3)}, 7.50),  # MOQ 10 at S1 costs 10.00; 3 x 2.50 = 7.50 at S2 is cheaper
+        (4.00, {("S1", 10)}, 10.00),  # 3 x 4.00 = 12.00 at S2: better to take the MOQ of 10 at S1
+    ],
+)
+def test_minimum_order_quantity(s2_price: float, plan: set, total: float) -> None:
+    p = _one_line_problem(3.0, [Offer("S1", 1, 1.00, 100, 10), Offer("S2", 1, s2_price, 100, 1)], {"S1": 0.0, "S2": 0.0})
+    assert brute_force(p).cost == pytest.approx(total)
+    for solver in ("cbc", "highs"):
+        sol = solve(p, solver)
+        assert sol.total == pytest.approx(total, abs=COST_TOL)
+        assert {(pu.supplier, pu.qty) for pu in sol.purchases} == plan
+
+
+def _merge_problem() -> Problem:
+    a = Group("a", ["a-shared", "a-own"], [[("L", 5.0, "ra")], [("M", 5.0, "ra")]])
+    b = Group("b", ["b-shared", "b-own"], [[("L", 5.0, "rb")], [("N", 5.0, "rb")]])
+    offers = {
+        "L": [Offer("S1", 1, 1.00, 100, 1), Offer("S1", 10, 0.50, 100, 1)],
+        "M": [Offer("S1", 1, 0.80, 100, 1)],
+        "N": [Offer("S1", 1, 0.80, 100, 1)],
+    }
+    return Problem({"a": a, "b": b}, [], offers, {"S1": 0.0}, 1.0)
+
+
+def test_shared_line_reaches_a_better_break() -> None:
+    # Hand-worked: alone, each role's cheapest is its own line (5 x 0.80 = 4.00, against
+    # 5 x 1.00 on L); together both on L need 10 units at 0.50 = 5.00 < 8.00.
+    p = _merge_problem()
+    exact = brute_force(p)
+    assert exact.cost == pytest.approx(5.0)
+    assert exact.choice == {"a": 0, "b": 0}
+    for solver in ("cbc", "highs"):
+        sol = solve(p, solver)
+        assert sol.choice == {"a": 0, "b": 0}
+        assert sol.need == {"L": 10}
+        assert sol.total == pytest.approx(5.0, abs=COST_TOL)
+
+
+def test_lines_objective_trades_cost_for_fewer_lines() -> None:
+    # Make the shared line dear: L at 1.00 flat -> shared plan 10.00 on one line,
+    # own lines 8.00 on two lines. Objective cost picks two lines, objective lines one.
+    p = _merge_problem()
+    p.line_offers["L"] = [Offer("S1", 1, 1.00, 100, 1)]
+    assert brute_force(p, "cost").cost == pytest.approx(8.0)
+    best_lines = brute_force(p, "lines")
+    assert (best_lines.lines, best_lines.cost) == (1, pytest.approx(10.0))
+    assert_matches(p, brute_force(p, "cost"), "cost")
+    assert_matches(p, best_lines, "lines")
+
+
+def test_couplings_and_compat_decide_together() -> None:
+    # Hand-worked: "stage" option 0 is cheap (1.00) but needs a strong driver (coupling
+    # drive[j] >= need[k]); the strong driver costs 5.00, the weak one 1.00, and the
+    # heatsink option 1 (0.50) mounts only stage 1 (price 2.00). Plans:
+    # (k0, strong, hs0 3.00) = 1 + 5 + 3 = 9.00; (k1, weak, hs1) = 2 + 1 + 0.5 = 3.50.
+    stage = Group("stage", ["k0", "k1"], [[("K0", 1.0, "s")], [("K1", 1.0, "s")]])
+    drv = Group("drv", ["strong", "weak"], [[("D0", 1.0, "d")], [("D1", 1.0, "d")]])
+    hs = Group("hs", ["h0", "h1"], [[("H0", 1.0, "h")], [("H1", 1.0, "h")]], parent="stage",
+               compat=[np.array([0, 1]), np.array([1])])
+    c = Coupling("drive", {"drv": np.array([2.0, 1.0]), "stage": np.array([-2.0, -1.0])}, ">=")
+    price = {"K0": 1.0, "K1": 2.0, "D0": 5.0, "D1": 1.0, "H0": 3.0, "H1": 0.5}
+    offers = {l: [Offer("S1", 1, v, 10, 1)] for l, v in price.items()}
+    p = Problem({"stage": stage, "drv": drv, "hs": hs}, [c], offers, {"S1": 0.0}, 1.0)
+    exact = brute_force(p)
+    assert exact.cost == pytest.approx(3.5)
+    assert exact.choice == {"stage": 1, "drv": 1, "hs": 1}
+    assert decomposed_optimum(p).cost == pytest.approx(3.5)
+    assert_matches(p, exact, "cost")
+    # Forcing stage 0 gives the other plan.
+    forced = replace(p, forced={"stage": 0})
+    assert brute_force(forced).cost == pytest.approx(9.0)
+    assert_matches(forced, brute_force(forced), "cost")
+    # A no-good cut on (k1, h1) leaves (k1, weak, h0) = 2 + 1 + 3 = 6.00 as the best.
+    cut = replace(p, forbidden=[{"stage": [1], "hs": [1]}])
+    assert brute_force(cut).cost == pytest.approx(6.0)  # 2 + 1 + 3
+    assert_matches(cut, brute_force(cut), "cost")
+
+
+def test_infeasible_when_stock_cannot_cover() -> None:
+    p = _one_line_problem(10.0, [Offer("S1", 1, 1.00, 4, 1)], {"S1": 0.0})
+    assert brute_force(p) is None
+    assert_matches(p, None, "cost")
