@@ -48,6 +48,16 @@ def _parser() -> argparse.ArgumentParser:
     w.add_argument("--catalog", metavar="DIR")
     w.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
 
+    sw = sub.add_parser("sweep", help="the optimal design at each point of a power, rail or ambient range")
+    sw.add_argument("spec")
+    g = sw.add_mutually_exclusive_group(required=True)
+    g.add_argument("--power", metavar="FROM:TO:STEP", help="power per channel [W]")
+    g.add_argument("--rail", metavar="FROM:TO:STEP", help="v_min [V]; v_max keeps the spec's spread")
+    g.add_argument("--ambient", metavar="FROM:TO:STEP", help="ambient temperature [degC]")
+    sw.add_argument("--catalog", metavar="DIR")
+    sw.add_argument("--plot", metavar="FILE.png", help="write cost against the swept quantity")
+    sw.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
+
     e = sub.add_parser("evaluate", help="the full check of a hand-picked selection")
     e.add_argument("spec")
     e.add_argument("--part", action="append", default=[], metavar="ROLE=MPN", required=True)
@@ -73,8 +83,11 @@ def _design_args(d: argparse.ArgumentParser) -> None:
     d.add_argument("--plots", metavar="DIR", help="write SOA and thermal pictures")
     d.add_argument("--objective", choices=("cost", "lines"))
     d.add_argument("--exclude", nargs="+", default=[], metavar="MPN")
-    d.add_argument("--previous", metavar="REPORT.json")
-    d.add_argument("--keep-footprints", action="store_true")
+    d.add_argument("--previous", metavar="REPORT.json", help="re-design keeping as much of a previous report as possible")
+    d.add_argument("--keep-footprints", action="store_true", help="with --previous: replacements keep package and pinout")
+    d.add_argument("--change-weight", type=float, metavar="COST", help="with --previous: trade one changed role for this much cost (default: fewest changes first)")
+    d.add_argument("--risk", action="store_true", help="report single-source lines and the best design without each")
+    d.add_argument("--time-limit", type=float, metavar="S", help="solver time limit in seconds")
     d.add_argument("--alternatives", type=int, default=0, metavar="N")
     d.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
 
@@ -125,6 +138,10 @@ def _dispatch(args: argparse.Namespace, console) -> int:
         from partpick.commands import run_evaluate
 
         return run_evaluate(args, console)
+    if args.command == "sweep":
+        from partpick.commands import run_sweep
+
+        return run_sweep(args, console)
     if args.command == "why":
         from partpick.commands import run_why
 

@@ -26,6 +26,7 @@ def run_demo(term: Terminal) -> int:
     args = argparse.Namespace(
         spec=str(example), catalog=str(demo_catalog_dir()), json=None, bom=None, plots=None,
         objective=None, exclude=[], previous=None, keep_footprints=False, alternatives=0, solver="cbc",
+        change_weight=None, risk=False, time_limit=None,
     )
     term.print(f"partpick demo: {example.name} on the demo catalogue\n")
     return run_design(args, term)
@@ -38,15 +39,31 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
 
     spec = load_spec(args.spec)
     catalog = _catalog(args.catalog)
-    if args.previous or args.keep_footprints:
-        raise UsageError("--previous and --keep-footprints are not available yet")
+    if args.keep_footprints and not args.previous:
+        raise UsageError("--keep-footprints goes with --previous REPORT.json")
+    previous = None
+    if args.previous:
+        from partpick.optimize.revise import load_previous
+
+        previous = load_previous(args.previous)
     if args.plots:
         raise UsageError("--plots is not available yet")
     inputs = _input_paths(args.spec, catalog)
     for out in (args.json, args.bom):
         if out:
             _refuse_input(out, inputs)
-    result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver, spec_label=args.spec)
+    revision = None
+    if previous is not None:
+        from partpick.optimize.revise import redesign
+
+        if args.objective:
+            spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": args.objective})})
+        revision = redesign(spec, catalog, previous, exclude=tuple(args.exclude), keep_footprints=args.keep_footprints,
+                            change_weight=getattr(args, "change_weight", None), solver=args.solver)
+        result = revision.result
+    else:
+        result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver,
+                     spec_label=args.spec, time_limit=getattr(args, "time_limit", None))
     rep = build_report(result, catalog.file_sha256, args.solver)
     if not result.feasible:
         from partpick.optimize.explain import suggestions
@@ -61,6 +78,14 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
     from partpick.optimize.explain import compare_feeds
 
     rep = build_report(result, catalog.file_sha256, args.solver, compare_feeds(result, catalog, tuple(args.exclude), args.solver))
+    if revision is not None:
+        rep["changes"] = [vars(c) for c in revision.changes]
+        rep["no_drop_in"] = dict(revision.no_drop_in)
+        rep["previous_total"] = previous.total
+    if getattr(args, "risk", False):
+        from partpick.optimize.revise import stock_risk
+
+        rep["stock_risk"] = [vars(r) for r in stock_risk(result, args.solver)]
     if args.json:
         write_json(args.json, rep)
     if args.bom:
@@ -71,6 +96,14 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         term.always(f"{rep['totals']['total']:.2f} {rep['totals']['currency']}")
     else:
         render_design(term, rep)
+    if revision is not None:
+        from partpick.report.text import render_changes
+
+        render_changes(term, rep)
+    if "stock_risk" in rep:
+        from partpick.report.text import render_risk
+
+        render_risk(term, rep)
     if args.alternatives and args.alternatives > 1:
         from partpick.optimize.explain import alternatives
         from partpick.report.text import render_alternatives
@@ -134,6 +167,37 @@ def run_why(args: argparse.Namespace, term: Terminal) -> int:
         )
     else:
         term.always(f"{ans.mpn} is not used: {ans.reason}")
+    return EXIT_OK
+
+
+def run_sweep(args: argparse.Namespace, term: Terminal) -> int:
+    """The optimal design at each point of a power, rail or ambient range."""
+    from rich import box
+    from rich.table import Table
+
+    from partpick.optimize.sweep import QUANTITIES, parse_range, plot_sweep, sweep
+
+    quantity = next(q for q in QUANTITIES if getattr(args, q))
+    values = parse_range(getattr(args, quantity), f"--{quantity}")
+    spec = load_spec(args.spec)
+    catalog = _catalog(args.catalog)
+    if args.plot:
+        _refuse_input(args.plot, _input_paths(args.spec, catalog))
+    points = sweep(spec, catalog, quantity, values, args.solver)
+    label, unit = QUANTITIES[quantity]
+    cur = catalog.currency
+    t = Table(title=f"Sweep of {label} [{unit}]", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
+    for col, just in ((unit, "right"), (f"total {cur}", "right"), ("output pair", "left"), ("driver", "left"), ("heatsink", "left"), ("tightest margin", "left")):
+        t.add_column(col, justify=just, overflow="fold")
+    for p in points:
+        if p.feasible:
+            t.add_row(f"{p.value:g}", f"{p.total:.2f}", p.output_pair, p.driver, p.heatsink, f"{p.tightest} {100 * p.tightest_fraction:.0f} %")
+        else:
+            t.add_row(f"{p.value:g}", "[red]infeasible[/]", "", "", "", "")
+    term.always(t)
+    if args.plot:
+        plot_sweep(points, quantity, args.plot, cur)
+        term.print(f"wrote {args.plot}")
     return EXIT_OK
 
 

@@ -43,6 +43,38 @@ class DesignResult:
         return self.status in ("ok", "not proven optimal")
 
 
+def prepare(
+    spec: Spec,
+    catalog: Catalog,
+    *,
+    exclude: tuple[str, ...] = (),
+    objective: str | None = None,
+    spec_label: str = "spec",
+) -> DesignResult:
+    """Evaluate and assemble the MILP without solving it (status "prepared" or "infeasible")."""
+    if objective:
+        spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": objective})})
+    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
+    targets = Targets.from_spec(spec)
+    stage = evaluate_stage(spec, pool, targets)
+    asm = assemble(spec, pool, targets, stage)
+    status = "infeasible" if asm is None or asm.problem is None else "prepared"
+    return DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings))
+
+
+def finish(result: DesignResult, *, solver: str = "cbc", time_limit: float | None = None) -> DesignResult:
+    """Solve a prepared design and check the chosen selection in full."""
+    if result.status != "prepared":
+        return result
+    asm = result.assembly
+    sol = solve(asm.problem, solver=solver, time_limit=time_limit)
+    if sol.status == "infeasible":
+        return DesignResult(result.spec, result.pool, result.targets, result.stage, asm, sol, None, "infeasible", result.warnings)
+    check = check_chosen(result.spec, result.pool, result.targets, result.stage, asm, sol.choice)
+    status = "ok" if sol.status == "optimal" else "not proven optimal"
+    return DesignResult(result.spec, result.pool, result.targets, result.stage, asm, sol, check, status, result.warnings + check.warnings)
+
+
 def run(
     spec: Spec,
     catalog: Catalog,
@@ -59,26 +91,14 @@ def run(
     ``forced`` maps a role (``output_npn``, ``driver_opamp``, ...) to an mpn the
     design must use.
     """
-    if objective:
-        spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": objective})})
-    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
-    targets = Targets.from_spec(spec)
-    stage = evaluate_stage(spec, pool, targets)
-    asm = assemble(spec, pool, targets, stage)
-    warnings = list(catalog.warnings)
-    if asm is None or asm.problem is None:
-        return DesignResult(spec, pool, targets, stage, asm, None, None, "infeasible", warnings)
-    if forced:
-        for role, mpn in forced.items():
-            if not _force(asm, role, mpn):
-                return DesignResult(spec, pool, targets, stage, asm, None, None, "infeasible", warnings)
-    sol = solve(asm.problem, solver=solver, time_limit=time_limit)
-    if sol.status == "infeasible":
-        return DesignResult(spec, pool, targets, stage, asm, sol, None, "infeasible", warnings)
-    check = check_chosen(spec, pool, targets, stage, asm, sol.choice)
-    warnings += check.warnings
-    status = "ok" if sol.status == "optimal" else "not proven optimal"
-    return DesignResult(spec, pool, targets, stage, asm, sol, check, status, warnings)
+    result = prepare(spec, catalog, exclude=exclude, objective=objective, spec_label=spec_label)
+    if result.status != "prepared":
+        return result
+    for role, mpn in (forced or {}).items():
+        if not _force(result.assembly, role, mpn):
+            result.status = "infeasible"
+            return result
+    return finish(result, solver=solver, time_limit=time_limit)
 
 
 def _force(asm: Assembly, role: str, mpn: str) -> bool:

@@ -77,6 +77,10 @@ class Problem:
     forced: dict[str, int] = field(default_factory=dict)  # group -> option index fixed to 1
     #: No-good cuts: for each cut, not every group may pick one of its listed options.
     forbidden: list[dict[str, list[int]]] = field(default_factory=list)
+    #: Roles each option changes against a previous design (group -> count per option);
+    #: minimised before cost, or weighted by ``change_weight`` (currency per change).
+    change_cost: dict[str, np.ndarray] = field(default_factory=dict)
+    change_weight: float | None = None
 
 
 @dataclass
@@ -208,18 +212,30 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     tie_expr = pulp.lpSum(tie)
 
     sol = _solver(solver, time_limit)
+    # Lexicographic goals before cost: fewest changed roles, then fewest lines.
+    goals = []
+    final = cost + tie_expr
+    if problem.change_cost:
+        changes = pulp.LpAffineExpression(
+            [(v, float(c)) for g, cc in problem.change_cost.items() for v, c in zip(x[g], cc) if c]
+        )
+        if problem.change_weight is None:
+            goals.append(("changes", changes))
+        else:
+            final = final + problem.change_weight * changes
     if problem.objective == "lines":
         u = {line: pulp.LpVariable(f"u_{k}", cat="Binary") for k, line in enumerate(sorted(users))}
         for line, vs in users.items():
-            for k, v in enumerate(vs):
+            for v in vs:
                 m += u[line] - v >= 0
-        n_lines = pulp.lpSum(u.values())
-        m.setObjective(n_lines + 1e-6 * cost + tie_expr * 1e-3)
+        goals.append(("lines", pulp.lpSum(u.values())))
+    for name, goal in goals:
+        m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
         status = m.solve(sol)
-        if pulp.LpStatus[status] == "Optimal":
-            best_lines = round(pulp.value(n_lines))
-            m += n_lines <= best_lines + 1e-6, "lines_fixed"
-    m.setObjective(cost + tie_expr)
+        if pulp.LpStatus[status] != "Optimal":
+            break
+        m += goal <= round(pulp.value(goal)) + 1e-6, f"{name}_fixed"
+    m.setObjective(final)
     status = m.solve(sol)
     text = pulp.LpStatus[status]
     if text in ("Infeasible", "Undefined") or (text != "Optimal" and x and pulp.value(next(iter(x.values()))[0]) is None):

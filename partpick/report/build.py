@@ -102,6 +102,9 @@ def build_report(result: DesignResult, catalog_hashes: dict[str, str] | None = N
     rep["optimal"] = result.status == "ok"
     parts = role_parts(result)
     refs = designators(parts, result.targets.channels)
+    from partpick.optimize.revise import _footprints
+
+    fps = _footprints(result.pool.catalog)
     rep["parts"] = []
     for p in parts:
         margins = {m.name: _r(m.value) for m in result.check.margins.get(p["role"], [])}
@@ -110,6 +113,8 @@ def build_report(result: DesignResult, catalog_hashes: dict[str, str] | None = N
             "role": p["role"],
             "mpn": p["mpn"],
             "value": value_text(p["value"], p["role"]),
+            "package": fps.get(p["mpn"], (None, None))[0],
+            "pinout": fps.get(p["mpn"], (None, None))[1],
             "qty_per_channel": _r(p["per_channel"]),
             "qty_per_board": _r(p["per_board"]),
             "qty": p["qty"],

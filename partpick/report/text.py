@@ -151,3 +151,39 @@ def render_alternatives(term: Terminal, reps: list[dict]) -> None:
             f"{rep['totals']['total']:.2f} {rep['totals']['currency']}",
         )
     term.always(t)
+
+
+def render_changes(term: Terminal, rep: dict) -> None:
+    """What changed against the previous design, why, and what it costs."""
+    cur = rep["totals"]["currency"]
+    t = Table(title="Changes against the previous design", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
+    t.add_column("role", overflow="fold", max_width=16)
+    t.add_column("previous", overflow="fold")
+    t.add_column("new", overflow="fold")
+    t.add_column("why", overflow="fold")
+    t.add_column("cost", justify="right")
+    for c in rep.get("changes", []):
+        t.add_row(c["role"].replace("_", " "), c["previous"], c["new"], c["reason"], f"{c['cost_change']:+.2f}")
+    if not rep.get("changes"):
+        t.add_row("(none)", "", "", "every role keeps its part", "")
+    term.always(t)
+    diff = rep["totals"]["total"] - rep["previous_total"]
+    term.always(f"total {rep['totals']['total']:.2f} {cur} against {rep['previous_total']:.2f} {cur} before ({diff:+.2f} {cur})")
+    for role, note in rep.get("no_drop_in", {}).items():
+        term.always(f"[yellow]{role.replace('_', ' ')}:[/] {note}")
+
+
+def render_risk(term: Terminal, rep: dict) -> None:
+    """Single-source lines and the best design without each."""
+    cur = rep["totals"]["currency"]
+    t = Table(title="Stock risk", box=box.SIMPLE_HEAD, title_justify="left", pad_edge=False)
+    t.add_column("part", overflow="fold")
+    t.add_column("role", overflow="fold", max_width=14)
+    t.add_column("stocked by", justify="right")
+    t.add_column("without it", overflow="fold")
+    for r in rep["stock_risk"]:
+        n = len(r["suppliers_with_stock"])
+        style = "red" if r["single_source"] else ""
+        without = f"{r['total_without']:.2f} {cur} with {r['replacement']}" if r["total_without"] is not None else "no design"
+        t.add_row(Text(r["mpn"], style=style), r["role"].replace("_", " "), Text(f"{n} supplier{'s' if n != 1 else ''}", style=style), without)
+    term.always(t)

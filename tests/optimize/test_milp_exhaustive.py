@@ -439,12 +439,13 @@ def problems(draw) -> Problem:
     offers: dict[str, list[Offer]] = {}
     for line in lines:
         rows = []
+        base_cents = draw(st.integers(20, 400))  # suppliers' prices close together: fees decide
         for s in suppliers:
             if not draw(st.booleans()) and rows:
                 continue
             stock = draw(st.sampled_from([6, 40, 3, 500, 15, 10, 25, 0]))  # small stock forces split buys
             moq = draw(st.sampled_from([1, 1, 2, 5, 10]))
-            price_cents = draw(st.integers(20, 500))
+            price_cents = base_cents + draw(st.integers(0, 40))
             min_qty = draw(st.integers(1, 3))
             for _t in range(draw(st.integers(1, 3))):
                 rows.append(Offer(s, min_qty, price_cents / 100.0, stock, moq))
@@ -471,7 +472,7 @@ def problems(draw) -> Problem:
     return Problem(groups, couplings, offers, fees, boards * (1 + spares_pct / 100.0), "cost", forced, forbidden)
 
 
-SETTINGS = dict(max_examples=40, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+SETTINGS = dict(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 
 
 @settings(**SETTINGS)
@@ -540,6 +541,19 @@ def test_buys_up_to_a_price_break(break_price: float, qty: int, total: float) ->
         sol = solve(p, solver)
         assert sol.total == pytest.approx(total, abs=COST_TOL)
         assert [pu.qty for pu in sol.purchases] == [qty]
+
+
+def test_one_price_break_per_supplier() -> None:
+    # Hand-worked: need 9; S1 quotes 5 in stock at 1.00 (from 1) or 0.90 (from 2), S2 100 at 2.00.
+    # One break per supplier: 5 x 0.90 + 4 x 2.00 = 12.50. (Two breaks of S1 at once,
+    # 5 x 0.90 + 4 x 1.00 = 8.50, would count S1's stock twice.)
+    offers = [Offer("S1", 1, 1.00, 5, 1), Offer("S1", 2, 0.90, 5, 1), Offer("S2", 1, 2.00, 100, 1)]
+    p = _one_line_problem(9.0, offers, {"S1": 0.0, "S2": 0.0})
+    assert brute_force(p).cost == pytest.approx(12.5)
+    for solver in ("cbc", "highs"):
+        sol = solve(p, solver)
+        assert sol.total == pytest.approx(12.5, abs=COST_TOL)
+        assert {(pu.supplier, pu.min_qty, pu.qty) for pu in sol.purchases} == {("S1", 2, 5), ("S2", 1, 4)}
 
 
 def _two_line_problem(fee: float) -> Problem:

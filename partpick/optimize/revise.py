@@ -1,0 +1,289 @@
+"""Re-designing after a change of stock or prices: keep the board, change as little as possible.
+
+``redesign`` re-solves with the current catalogue while minimising the number
+of roles whose parts change against a previous report (then cost; a weight
+may trade changes against cost). With ``keep_footprints`` a replacement must
+have the previous part's package, and its pinout where both are catalogued.
+``stock_risk`` finds single-source lines and the best design without each.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from partpick.catalog import Catalog
+from partpick.errors import InputError, Problem
+from partpick.optimize.design import DesignResult, finish, prepare
+from partpick.optimize.milp import Coupling
+from partpick.report.build import SCHEMA, value_text
+from partpick.spec import Spec
+
+#: Roles whose parts have a footprint in the catalogue (package, pinout).
+FOOTPRINT_ROLES = ("output_npn", "output_pnp", "driver_opamp", "regulator", "bias_diode", "bias_source_transistor", "bias_source_reference")
+
+
+@dataclass
+class Previous:
+    """The parts of a previous report: role -> sorted (mpn, value) list, and their costs."""
+
+    path: str
+    parts: dict[str, list[tuple[str, str | None]]]
+    footprint: dict[str, list[tuple[str | None, str | None]]]
+    role_cost: dict[str, float]
+    total: float
+
+
+def load_previous(path: str | Path) -> Previous:
+    """Read a previous ``partpick.report/1`` report with status ok."""
+    label = str(path)
+    try:
+        rep = json.loads(Path(path).read_text(encoding="utf-8-sig"))
+    except FileNotFoundError:
+        raise InputError([Problem(label, 0, "", "previous report not found")]) from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        line = getattr(exc, "lineno", 0)
+        raise InputError([Problem(label, line, "", f"not a JSON report: {exc}")]) from None
+    if not isinstance(rep, dict) or rep.get("schema") != SCHEMA:
+        raise InputError([Problem(label, 0, "schema", f"not a {SCHEMA} report")])
+    if rep.get("status") != "ok" or not isinstance(rep.get("parts"), list):
+        raise InputError([Problem(label, 0, "status", "the previous report holds no design (status is not ok)")])
+    parts: dict[str, list] = {}
+    foot: dict[str, list] = {}
+    try:
+        for p in rep["parts"]:
+            parts.setdefault(str(p["role"]), []).append((str(p["mpn"]), p.get("value")))
+            foot.setdefault(str(p["role"]), []).append((p.get("package"), p.get("pinout")))
+        cost: dict[str, float] = {}
+        for o in rep.get("order", []):
+            roles = o.get("roles") or []
+            for r in roles:
+                cost[r] = cost.get(r, 0.0) + float(o["extended_price"]) / len(roles)
+        total = float(rep["totals"]["total"])
+    except (KeyError, TypeError, ValueError) as exc:
+        raise InputError([Problem(label, 0, "parts", f"malformed report: {exc}")]) from None
+    return Previous(label, {r: sorted(v, key=str) for r, v in parts.items()}, foot, cost, total)
+
+
+def _option_roles(result: DesignResult, group: str, option: int) -> dict[str, list[tuple[str, str | None]]]:
+    asm = result.assembly
+    out: dict[str, list] = {}
+    for line, _q, role in asm.problem.groups[group].usage[option]:
+        src, value = asm.lines[line]
+        out.setdefault(role, []).append((src, value_text(value, role)))
+    return {r: sorted(v, key=str) for r, v in out.items()}
+
+
+def _footprints(catalog: Catalog) -> dict[str, tuple[str | None, str | None]]:
+    fp: dict[str, tuple] = {}
+    for frame in (catalog.transistors, catalog.opamps, catalog.regulators, catalog.diodes):
+        pin = frame["pinout"] if "pinout" in frame else [None] * len(frame)
+        for m, pkg, pn in zip(frame["mpn"], frame["package"], pin):
+            fp[m] = (pkg, pn if isinstance(pn, str) else None)
+    return fp
+
+
+def _drop_in(new: tuple, old: tuple) -> bool:
+    """Same package; same pinout where both are known (a different pinout is not a drop-in)."""
+    if old[0] is None:
+        return True
+    if new[0] != old[0]:
+        return False
+    return old[1] is None or new[1] is None or new[1] == old[1]
+
+
+@dataclass
+class Change:
+    role: str
+    previous: str
+    new: str
+    reason: str
+    cost_change: float
+
+
+@dataclass
+class Redesign:
+    result: DesignResult
+    changes: list[Change]
+    no_drop_in: dict[str, str] = field(default_factory=dict)  # role -> best non-drop-in note
+
+
+def redesign(
+    spec: Spec,
+    catalog: Catalog,
+    previous: Previous,
+    *,
+    exclude: tuple[str, ...] = (),
+    keep_footprints: bool = False,
+    change_weight: float | None = None,
+    solver: str = "cbc",
+) -> Redesign:
+    """The design closest to ``previous``: fewest changed roles, then cost."""
+    base = prepare(spec, catalog, exclude=exclude)
+    if base.status != "prepared":
+        return Redesign(base, [])
+    problem = base.assembly.problem
+    fps = _footprints(catalog)
+    group_roles: dict[str, set[str]] = {}
+    option_roles: dict[str, list[dict]] = {}
+    for g, grp in problem.groups.items():
+        option_roles[g] = [_option_roles(base, g, o) for o in range(len(grp))]
+        group_roles[g] = {r for roles in option_roles[g] for r in roles}
+    role_group = {r: g for g, rs in group_roles.items() for r in rs}
+    prev_by_group: dict[str, set[str]] = {}
+    for r in previous.parts:
+        if r in role_group:
+            prev_by_group.setdefault(role_group[r], set()).add(r)
+    for g, opts in option_roles.items():
+        p_roles = prev_by_group.get(g, set())
+        cc = np.array([len(set(o) | p_roles) - sum(1 for r, v in o.items() if previous.parts.get(r) == v) for o in opts], float)
+        problem.change_cost[g] = cc
+    problem.change_weight = change_weight
+
+    no_drop: dict[str, str] = {}
+    if keep_footprints:
+        bad_by_role = _footprint_violations(option_roles, previous, fps, prev_by_group)
+        cuts = {r: c for r, c in bad_by_role.items()}
+        for r, (g, bad) in cuts.items():
+            problem.couplings.append(Coupling(f"keep footprint {r}", {g: bad.astype(float)}, "<=", 0.0))
+        trial = finish(base, solver=solver)
+        if not trial.feasible:
+            # Relax, one role at a time, the roles that have no drop-in at all.
+            problem.couplings = [c for c in problem.couplings if not c.name.startswith("keep footprint")]
+            for r, (g, bad) in cuts.items():
+                if bad.all():
+                    no_drop[r] = "no drop-in replacement in the catalogue"
+                    continue
+                problem.couplings.append(Coupling(f"keep footprint {r}", {g: bad.astype(float)}, "<=", 0.0))
+            trial = finish(base, solver=solver)
+            for r in list(no_drop):
+                if trial.feasible:
+                    new = ", ".join(m for m, _v in _option_roles(trial, role_group[r], trial.solution.choice[role_group[r]]).get(r, []))
+                    no_drop[r] += f"; best non-drop-in: {new} (total {trial.solution.total:.2f} {trial.pool.currency})"
+        result = trial
+    else:
+        result = finish(base, solver=solver)
+    changes = _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog) if result.feasible else []
+    return Redesign(result, changes, no_drop)
+
+
+def _footprint_violations(option_roles, previous: Previous, fps, prev_by_group) -> dict[str, tuple[str, np.ndarray]]:
+    out: dict[str, tuple[str, np.ndarray]] = {}
+    for r in FOOTPRINT_ROLES:
+        if r not in previous.parts:
+            continue
+        old = sorted(previous.footprint.get(r, []), key=str)
+        for g, opts in option_roles.items():
+            if r not in prev_by_group.get(g, set()):
+                continue
+            bad = []
+            for o in opts:
+                parts = o.get(r)
+                if parts is None:
+                    bad.append(True)  # the role disappears: the board changes
+                    continue
+                new = sorted((fps.get(m, (None, None)) for m, _v in parts), key=str)
+                bad.append(len(new) != len(old) or not all(_drop_in(a, b) for a, b in zip(new, old)))
+            out[r] = (g, np.array(bad, dtype=bool))
+    return out
+
+
+def _changes(result: DesignResult, previous: Previous, excluded: tuple[str, ...], catalog: Catalog) -> list[Change]:
+    from partpick.report.build import build_report
+
+    rep = build_report(result)
+    new_parts: dict[str, list] = {}
+    for p in rep["parts"]:
+        new_parts.setdefault(p["role"], []).append((p["mpn"], p["value"]))
+    new_cost: dict[str, float] = {}
+    for o in rep["order"]:
+        for r in o["roles"]:
+            new_cost[r] = new_cost.get(r, 0.0) + o["extended_price"] / len(o["roles"])
+    usable = {src for g in result.assembly.problem.groups for o in range(len(result.assembly.problem.groups[g])) for src, _q, _r in _sources(result, g, o)}
+    out = []
+    for role in sorted(set(previous.parts) | set(new_parts), key=_role_key):
+        old = previous.parts.get(role, [])
+        new = sorted(new_parts.get(role, []), key=str)
+        if old == new:
+            continue
+        reasons = []
+        for mpn, _v in old:
+            if mpn in excluded:
+                reasons.append(f"{mpn} excluded")
+            elif mpn in result.pool.left_out:
+                reasons.append(f"{mpn} {result.pool.left_out[mpn]}")
+            elif mpn not in usable:
+                reasons.append(f"{mpn} now infeasible")
+        if not reasons:
+            reasons.append("follows another change" if old else "new role")
+            if old and new and (new_cost.get(role, 0.0) < previous.role_cost.get(role, 0.0)):
+                reasons = ["cheaper"]
+        out.append(Change(role, _text(old), _text(new), "; ".join(reasons), round(new_cost.get(role, 0.0) - previous.role_cost.get(role, 0.0), 2)))
+    return out
+
+
+def _sources(result: DesignResult, group: str, option: int):
+    for line, q, role in result.assembly.problem.groups[group].usage[option]:
+        yield result.assembly.lines[line][0], q, role
+
+
+def _text(parts: list[tuple[str, str | None]]) -> str:
+    return ", ".join(m + (f" {v}" if v else "") for m, v in parts) or "-"
+
+
+def _role_key(role: str) -> int:
+    from partpick.optimize.design import ROLE_ORDER
+
+    return ROLE_ORDER.index(role) if role in ROLE_ORDER else len(ROLE_ORDER)
+
+
+@dataclass
+class Risk:
+    mpn: str
+    role: str
+    suppliers_with_stock: list[str]
+    single_source: bool
+    total_without: float | None
+    replacement: str | None
+
+
+def stock_risk(result: DesignResult, solver: str = "cbc") -> list[Risk]:
+    """For each chosen non-passive line: who stocks enough, and the best design without it.
+
+    The evaluation and the assembled problem are reused: each re-solve only
+    forbids the options that use the part, which is the same as excluding it
+    (the evaluation's filters only remove what no design could use).
+    """
+    asm, sol = result.assembly, result.solution
+    problem = asm.problem
+    families = set(result.pool.passives["family"])
+    risks = []
+    seen: set[str] = set()
+    for g, o in sol.choice.items():
+        for line, _q, role in problem.groups[g].usage[o]:
+            src = asm.lines[line][0]
+            if src in families or src in seen:
+                continue
+            seen.add(src)
+            need = sol.need[line]
+            stocked = sorted({off.supplier for off in problem.line_offers.get(line, []) if off.stock >= need})
+            saved = list(problem.couplings)
+            for grp_name, grp in problem.groups.items():
+                bad = np.array([any(asm.lines[l][0] == src for l, _q2, _r in u) for u in grp.usage], float)
+                if bad.any():
+                    problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
+            from partpick.optimize.milp import solve
+
+            alt = solve(problem, solver=solver)
+            problem.couplings = saved
+            total = replacement = None
+            if alt.status != "infeasible":
+                total = alt.total
+                gg = g
+                roles = [asm.lines[l][0] for l, _q2, r in problem.groups[gg].usage[alt.choice[gg]] if r == role]
+                replacement = ", ".join(roles) or None
+            risks.append(Risk(src, role, stocked, len(stocked) <= 1, total, replacement))
+    return risks
