@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.optimize.design import DesignResult, run
+from partpick.optimize.design import DesignResult, prepare, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -22,7 +22,9 @@ def _with(spec: Spec, section: str, **values) -> Spec:
     return spec.model_copy(update={section: sub})
 
 
-def max_feasible_power_w(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), rel_tol: float = 0.01) -> float | None:
+def max_feasible_power_w(
+    spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), rel_tol: float = 0.01, known_infeasible: bool = False
+) -> float | None:
     """Highest power per channel (within ``rel_tol``) this catalogue and supply can deliver.
 
     Bisects between a power that designs and one that does not; None when
@@ -31,13 +33,28 @@ def max_feasible_power_w(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
     hi = spec.output.power_w
     lo = hi / 100.0
 
+    def assembles(p: float) -> bool:
+        # Necessary for feasibility and cheap: every role has a candidate (no solve).
+        return prepare(_with(spec, "output", power_w=p), catalog, exclude=exclude).status == "prepared"
+
     def ok(p: float) -> bool:
         return run(_with(spec, "output", power_w=p), catalog, exclude=exclude).feasible
 
-    if ok(hi):
+    if not known_infeasible and ok(hi):
         return hi
+    if not assembles(lo):
+        return None
+    # Narrow with the cheap necessary condition (every role has a candidate), then
+    # confirm with a full design; fall back to full bisection below that point.
+    q_lo, q_hi = lo, hi
+    while q_hi - q_lo > rel_tol * q_lo:
+        mid = 0.5 * (q_lo + q_hi)
+        q_lo, q_hi = (mid, q_hi) if assembles(mid) else (q_lo, mid)
+    if ok(q_lo):
+        return round(q_lo, 3)
     if not ok(lo):
         return None
+    hi = q_lo
     while hi - lo > rel_tol * lo:
         mid = 0.5 * (lo + hi)
         lo, hi = (mid, hi) if ok(mid) else (lo, mid)
@@ -73,7 +90,7 @@ def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
 def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = ()) -> dict:
     """What would make an infeasible spec feasible, each point designed in full."""
     out: dict = {}
-    p = max_feasible_power_w(spec, catalog, exclude)
+    p = max_feasible_power_w(spec, catalog, exclude, known_infeasible=True)
     out["highest_feasible_power_w"] = p
     rail = lowest_feasible_rail(spec, catalog, exclude)
     out["lowest_feasible_rail_v"] = None if rail is None else {"v_min": rail[0], "v_max": rail[1]}

@@ -173,7 +173,9 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     for gname, g in problem.groups.items():
         for i, usage in enumerate(g.usage):
             for line, per_board, _role in usage:
-                units = per_board * problem.factor
+                # Rounded so that float noise cannot demand one unit more
+                # (2 x 25 x 1.04 is 52); the need row then has an exact right side.
+                units = round(per_board * problem.factor, 6)
                 need_expr.setdefault(line, []).append((x[gname][i], units))
                 users.setdefault(line, []).append(x[gname][i])
                 per_group = most.setdefault(line, {})
@@ -204,10 +206,15 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
             cost_terms.append((q, off.unit_price + 1e-7 * (suppliers.index(off.supplier) + 1)))
             qs.append((q, 1.0))
             buy.append((line, off, q))
+        # A line's offers are used only when some chosen option needs the line
+        # (at most one break per supplier); this also tightens the relaxation.
+        # (dedupe by name: PuLP overloads == on variables)
+        users_expr = [(v, -1.0) for v in {v.name: v for v in users[line]}.values()]
         for zs in by_supplier.values():
             if len(zs) > 1:
                 m += pulp.lpSum(zs) <= 1
-        m += pulp.LpAffineExpression(qs + [(v, -a) for v, a in need_expr[line]]) >= -1e-6, f"need_{l_i}"
+            m += pulp.LpAffineExpression([(z, 1.0) for z in zs] + users_expr) <= 0
+        m += pulp.LpAffineExpression(qs + [(v, -a) for v, a in need_expr[line]]) >= 0, f"need_{l_i}"
     cost = pulp.LpAffineExpression(cost_terms)
     tie_expr = pulp.lpSum(tie)
 
@@ -234,7 +241,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         status = m.solve(sol)
         if pulp.LpStatus[status] != "Optimal":
             break
-        m += goal <= round(pulp.value(goal)) + 1e-6, f"{name}_fixed"
+        m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
     status = m.solve(sol)
     text = pulp.LpStatus[status]
