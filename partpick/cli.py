@@ -14,7 +14,7 @@ import sys
 from pathlib import Path
 
 from partpick import __version__
-from partpick.errors import InputError, UsageError
+from partpick.errors import InputError, SolverError, UsageError
 
 EXIT_OK, EXIT_USAGE, EXIT_INPUT, EXIT_INFEASIBLE = 0, 2, 3, 4
 
@@ -108,6 +108,9 @@ def main(argv: list[str] | None = None) -> int:
     except UsageError as exc:
         console.error(str(exc))
         return EXIT_USAGE
+    except SolverError as exc:
+        console.error(str(exc))
+        return 1
     except KeyboardInterrupt:
         console.error("interrupted; no output file was written")
         return 130

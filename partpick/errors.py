@@ -34,3 +34,7 @@ class InputError(Exception):
 
 class UsageError(Exception):
     """A command-line request that cannot be carried out as asked (exit 2)."""
+
+
+class SolverError(Exception):
+    """The solver is missing, broken, or ran out of time without any design."""

@@ -24,6 +24,9 @@ from partpick.errors import InputError, Problem
 
 #: Largest catalogue file read [bytes]; larger files are refused, not loaded.
 MAX_FILE_BYTES = 256 * 1024 * 1024
+#: Most rows read from one file; a larger file is refused with a message, not
+#: loaded until memory runs out (a medium-sized parametric export has ~20,000).
+MAX_ROWS = 500_000
 #: Largest cell [characters].
 MAX_CELL_CHARS = 4096
 
@@ -131,7 +134,13 @@ def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple[int, Row]], lis
     if "\x00" in text:
         line = text[: text.index("\x00")].count("\n") + 1
         return [], [Problem(label, line, "", "contains a NUL character: not a text file")], digest
+    if text.count("\n") > 2 * MAX_ROWS:  # refuse before parsing: comments cannot explain this many lines
+        reason = f"about {text.count(chr(10))} lines; partpick reads at most {MAX_ROWS} rows per file (split the catalogue or filter it)"
+        return [], [Problem(label, 0, "", reason)], digest
     records = list(_records(text))
+    if len(records) > MAX_ROWS + 1:
+        reason = f"{len(records) - 1} rows; partpick reads at most {MAX_ROWS} rows per file (split the catalogue or filter it)"
+        return [], [Problem(label, 0, "", reason)], digest
     if not records:
         return [], [Problem(label, 0, "", "file is empty: a header row is required")], digest
     header_line, header = records[0]
@@ -317,6 +326,9 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
         missing = [m for m in frames[name][key] if m not in offered]
         if missing:
             warnings.append(f"{name}: no offer for {', '.join(missing)}: these cannot be chosen")
+    from partpick.catalog.plausibility import plausibility_warnings
+
+    warnings.extend(plausibility_warnings(str(folder), frames))
     no_soa = frames["transistors.csv"].loc[frames["transistors.csv"]["soa_dc"].isna(), "mpn"]
     if len(no_soa):
         warnings.append(

@@ -27,7 +27,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pulp
 
-from partpick.errors import UsageError
+from partpick.errors import SolverError, UsageError
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
@@ -118,6 +118,14 @@ def _solver(name: str, time_limit: float | None):
             raise UsageError("the HiGHS solver needs the package highspy (pip install highspy); use --solver cbc") from None
         return pulp.HiGHS(msg=False, timeLimit=time_limit, threads=1, random_seed=1)
     raise UsageError(f"unknown solver '{name}' (cbc or highs)")
+
+
+def _run(m: pulp.LpProblem, sol, name: str) -> int:
+    try:
+        return m.solve(sol)
+    except pulp.PulpSolverError as exc:
+        other = "highs" if name == "cbc" else "cbc"
+        raise SolverError(f"the {name} solver failed ({exc}); try --solver {other}") from None
 
 
 def line_need(problem: Problem, choice: dict[str, int]) -> dict[str, float]:
@@ -238,14 +246,16 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         goals.append(("lines", pulp.lpSum(u.values())))
     for name, goal in goals:
         m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
-        status = m.solve(sol)
+        status = _run(m, sol, solver)
         if pulp.LpStatus[status] != "Optimal":
             break
         m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
-    status = m.solve(sol)
-    text = pulp.LpStatus[status]
-    if text in ("Infeasible", "Undefined") or (text != "Optimal" and x and pulp.value(next(iter(x.values()))[0]) is None):
+    _run(m, sol, solver)
+    found = m.sol_status in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible)
+    if not found or any(v.value() is None for vs in x.values() for v in vs[:1]):
+        if m.sol_status == pulp.LpSolutionNoSolutionFound and time_limit is not None:
+            raise SolverError(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
         return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
     choice = {g: int(np.argmax([v.value() or 0.0 for v in vs])) for g, vs in x.items()}
     purchases = [
@@ -257,7 +267,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     parts = sum(p.qty * p.unit_price for p in purchases)
     fees = sum(problem.fees[s] for s in used)
     need = {l: ceil_units(q) for l, q in line_need(problem, choice).items()}
-    state = "optimal" if text == "Optimal" else "not proven optimal"
+    state = "optimal" if m.sol_status == pulp.LpSolutionOptimal else "not proven optimal"
     return Solution(state, choice, need, sorted(purchases, key=lambda p: (p.line, p.supplier)), round(parts, 6), round(fees, 6), used, solver)
 
 
