@@ -46,12 +46,12 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         from partpick.optimize.revise import load_previous
 
         previous = load_previous(args.previous)
-    if args.plots:
-        raise UsageError("--plots is not available yet")
     inputs = _input_paths(args.spec, catalog)
     for out in (args.json, args.bom):
         if out:
             _refuse_input(out, inputs)
+    if args.plots:
+        _refuse_plots_folder(args.plots, inputs)
     revision = None
     if previous is not None:
         from partpick.optimize.revise import redesign
@@ -73,6 +73,8 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         rep["suggestions"] = suggestions(result.spec, catalog, tuple(args.exclude))
         if args.json:
             write_json(args.json, rep)
+        if args.plots:
+            write_plots(term, result, args.plots, rep)
         render_infeasible(term, rep)
         return EXIT_INFEASIBLE
     from partpick.optimize.explain import compare_feeds
@@ -92,6 +94,8 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         from partpick.report.bom_csv import write_bom_csv
 
         write_bom_csv(args.bom, rep)
+    if args.plots:
+        write_plots(term, result, args.plots, rep)
     if term.quiet:
         term.always(f"{rep['totals']['total']:.2f} {rep['totals']['currency']}")
     else:
@@ -222,6 +226,21 @@ def _refuse_input(out: str, inputs: set[Path]) -> None:
     p = Path(out).resolve()
     if p in inputs or any(parent in inputs for parent in p.parents):
         raise UsageError(f"refusing to write {out}: it is an input file or inside the catalogue folder")
+
+
+def _refuse_plots_folder(folder: str, inputs: set[Path]) -> None:
+    """The plots folder must not be (inside) an input, nor an existing file."""
+    _refuse_input(folder, inputs)
+    if Path(folder).exists() and not Path(folder).is_dir():
+        raise UsageError(f"refusing to write pictures into {folder}: it is a file, not a folder")
+
+
+def write_plots(term: Terminal, result, folder: str, rep: dict) -> None:
+    """The SOA and thermal pictures of a design, or the funnel of an infeasible one."""
+    from partpick.report.plots import write_plots as write_pictures
+
+    paths = write_pictures(result, folder, rep)
+    term.print(f"wrote {len(paths)} pictures to {folder}: {', '.join(p.name for p in paths)}")
 
 
 def write_json(path: str, rep: dict) -> None:

@@ -184,6 +184,8 @@ class PartRow(_Block):
     role: Role
     mpn: str
     value: str | None
+    package: str | None  # footprint, for a re-design that keeps footprints
+    pinout: str | None
     qty_per_channel: float | None  # None for a board-level part
     qty_per_board: float
     qty: int
@@ -250,11 +252,32 @@ class Suggestions(_OptionalKeysBlock):
     with_pre_regulator: bool | None = None
 
 
+class Change(_Block):
+    """One role changed against ``--previous``: what, why, and the cost difference."""
+
+    role: str
+    previous: str
+    new: str
+    reason: str
+    cost_change: float
+
+
+class StockRisk(_Block):
+    """One chosen line's supply risk: who stocks it, and the best design without it."""
+
+    mpn: str
+    role: str
+    suppliers_with_stock: list[str]
+    single_source: bool
+    total_without: float | None
+    replacement: str | None
+
+
 # ----------------------------------------------------------------------------- reports
 
 
-class OkReport(_Block):
-    """A feasible run (exit 0)."""
+class OkReport(_OptionalKeysBlock):
+    """A feasible run (exit 0); the revision and stock-risk keys appear only when asked for."""
 
     schema_: Literal["partpick.report/1"] = Field(alias="schema")
     status: Literal["ok"]
@@ -268,6 +291,10 @@ class OkReport(_Block):
     funnel: Funnel
     warnings: list[str]
     cautions: Annotated[list[str], Field(min_length=1)]
+    changes: list[Change] | None = None  # with --previous
+    no_drop_in: dict[str, str] | None = None  # with --previous
+    previous_total: float | None = None  # with --previous
+    stock_risk: list[StockRisk] | None = None  # with the stock-risk check
 
     model_config = ConfigDict(extra="forbid", strict=True, frozen=True, serialize_by_alias=True)
 
@@ -294,5 +321,6 @@ class Report(RootModel[Annotated[Union[OkReport, InfeasibleReport], Field(discri
 
 __all__ = [
     "SCHEMA_ID", "Report", "OkReport", "InfeasibleReport", "SpecBlock", "ProgramBlock", "DesignBlock",
-    "FeedAlternative", "PartRow", "OrderRow", "Binding", "Totals", "Suggestions", "RailSuggestion",
+    "FeedAlternative", "PartRow", "OrderRow", "Binding", "Totals", "Suggestions", "RailSuggestion", "Change",
+    "StockRisk",
 ]

@@ -228,7 +228,7 @@ def decomposed_optimum(
 ) -> Optimum | None:
     """Exact optimum by enumerating the pivot group and each independent component.
 
-    For every supplier subset Y and every pivot option p, the cost is
+    For every pivot option p and every supplier subset Y, the cost is
     fees(Y) + the lines only the pivot uses + the sum over components of each
     component's cheapest feasible combination (its lines priced with the
     pivot's units of the same lines added). ``pivot_options`` restricts the
@@ -237,42 +237,38 @@ def decomposed_optimum(
     objective = objective or problem.objective
     pivot = pivot or _pick_pivot(problem)
     groups = problem.groups
-    comps = _components(problem, pivot)
-    comp_lines = [sorted({l for g in c for u in groups[g].usage for l, _q, _r in u}) for c in comps]
-    in_comp = {l for ls in comp_lines for l in ls}
+    comps = [_Component(problem, c) for c in _components(problem, pivot)]
+    in_comp = {l for c in comps for l in c.lines}
     pricer = LinePricer(problem)
-    memo: dict[tuple, tuple[int, float, dict[str, int]] | None] = {}
+    subsets = supplier_subsets(problem)
     options = range(len(groups[pivot])) if pivot_options is None else pivot_options
     best: tuple[int, float] | None = None
     best_choice: dict[str, int] = {}
-    for y in supplier_subsets(problem):
-        fees = sum(problem.fees[s] for s in y)
-        for p in options:
-            if pivot in problem.forced and problem.forced[pivot] != p:
-                continue
-            if not _pivot_alone_ok(problem, pivot, p):
-                continue
-            base: dict[str, float] = {}
-            for line, per_board, _r in groups[pivot].usage[p]:
-                base[line] = base.get(line, 0.0) + per_board
-            lines, cost = 0, fees
-            for line, per_board in base.items():
-                if line not in in_comp:
-                    q = ceil_units(per_board * problem.factor)
-                    lines += q > 0
-                    cost += pricer(line, q, y)
+    for p in options:
+        if pivot in problem.forced and problem.forced[pivot] != p:
+            continue
+        if not _pivot_alone_ok(problem, pivot, p):
+            continue
+        base: dict[str, float] = {}
+        for line, per_board, _r in groups[pivot].usage[p]:
+            base[line] = base.get(line, 0.0) + per_board
+        alone = {l: ceil_units(q * problem.factor) for l, q in base.items() if l not in in_comp}
+        tables = [c.table(pivot, p, base) for c in comps]
+        if any(t is None for t in tables):
+            continue
+        for y in subsets:
+            lines = sum(1 for q in alone.values() if q > 0)
+            cost = sum(problem.fees[s] for s in y) + sum(pricer(l, q, y) for l, q in alone.items())
             choice = {pivot: p}
-            for ci, comp in enumerate(comps):
-                res = _component_best(problem, pivot, p, comp, comp_lines[ci], base, y, pricer, objective, memo, ci)
+            for c, t in zip(comps, tables):
+                res = c.best(t, y, pricer, objective)
                 if res is None:
                     cost = math.inf
                     break
                 lines += res[0]
                 cost += res[1]
                 choice.update(res[2])
-            if not math.isfinite(cost):
-                continue
-            if _better((lines, cost), best, objective):
+            if math.isfinite(cost) and _better((lines, cost), best, objective):
                 best, best_choice = (lines, cost), choice
     return None if best is None else Optimum(best[0], best[1], {g: best_choice[g] for g in groups})
 
@@ -287,63 +283,91 @@ def _pivot_alone_ok(problem: Problem, pivot: str, p: int) -> bool:
     return not any(set(cut) == {pivot} and p in cut[pivot] for cut in problem.forbidden)
 
 
-def _component_best(problem, pivot, p, comp, lines, base, y, pricer, objective, memo, ci):
-    """Cheapest feasible combination of one component with the pivot fixed to ``p``."""
-    groups = problem.groups
-    allowed = []
-    for g in comp:
-        opts = np.arange(len(groups[g]))
-        if g in problem.forced:
-            opts = opts[opts == problem.forced[g]]
-        if groups[g].parent == pivot:
-            opts = np.array([o for o in opts if p in set(np.asarray(groups[g].compat[o]).tolist())], dtype=int)
-        allowed.append(opts)
-    couplings = [c for c in problem.couplings if any(g in comp for g in c.terms)]
-    offsets = tuple(float(c.terms[pivot][p]) if pivot in c.terms else 0.0 for c in couplings)
-    cuts = [cut for cut in problem.forbidden if any(g in comp for g in cut) and p in cut.get(pivot, [p])]
-    base_key = tuple((l, base[l]) for l in lines if l in base)
-    key = (ci, y, tuple(tuple(a.tolist()) for a in allowed), offsets, tuple(map(id, cuts)), base_key)
-    if key in memo:
-        return memo[key]
-    if any(len(a) == 0 for a in allowed):
-        memo[key] = None
-        return None
-    grid = np.meshgrid(*allowed, indexing="ij")
-    idx = {g: a.ravel() for g, a in zip(comp, grid)}
-    n = len(next(iter(idx.values())))
-    ok = np.ones(n, dtype=bool)
-    for g in comp:
-        parent = groups[g].parent
-        if parent in idx:
-            link = np.zeros((len(groups[g]), len(groups[parent])), dtype=bool)
-            for o, compat in enumerate(groups[g].compat):
-                link[o, np.asarray(compat, dtype=int)] = True
-            ok &= link[idx[g], idx[parent]]
-    for c, off in zip(couplings, offsets):
-        lhs = off + sum(np.asarray(coef, float)[idx[g]] for g, coef in c.terms.items() if g != pivot)
-        ok &= (lhs <= c.rhs + 1e-9) if c.sense == "<=" else (lhs >= c.rhs - 1e-9)
-    for cut in cuts:
-        ok &= ~np.all([np.isin(idx[g], opts) for g, opts in cut.items() if g != pivot], axis=0)
-    cost = np.zeros(n)
-    count = np.zeros(n, dtype=int)
-    for line in lines:
-        units = np.full(n, base.get(line, 0.0))
-        for g in comp:
-            per = np.array([sum(q for l, q, _r in u if l == line) for u in groups[g].usage])
-            units = units + per[idx[g]]
-        need = np.ceil(np.round(units * problem.factor, 6)).astype(int)
-        prices = {q: pricer(line, int(q), y) for q in np.unique(need)}
-        cost += np.array([prices[q] for q in need])
-        count += need > 0
-    ok &= np.isfinite(cost)
-    if not ok.any():
-        memo[key] = None
-        return None
-    cand = np.flatnonzero(ok)
-    order = np.lexsort((cost[cand], count[cand])) if objective == "lines" else np.argsort(cost[cand], kind="stable")
-    i = int(cand[order[0]])
-    memo[key] = (int(count[i]), float(cost[i]), {g: int(idx[g][i]) for g in comp})
-    return memo[key]
+class _Component:
+    """Groups that interact only among themselves once the pivot is fixed."""
+
+    def __init__(self, problem: Problem, names: list[str]) -> None:
+        self.problem = problem
+        self.names = names
+        groups = problem.groups
+        self.lines = sorted({l for g in names for u in groups[g].usage for l, _q, _r in u})
+        # units per board of each line, per group and option
+        self.units = {
+            g: {l: np.array([sum(q for ll, q, _r in u if ll == l) for u in groups[g].usage]) for l in self.lines}
+            for g in names
+        }
+        self.couplings = [c for c in problem.couplings if any(g in names for g in c.terms)]
+        self.cuts = [cut for cut in problem.forbidden if any(g in names for g in cut)]
+        self.links = {}
+        for g in names:
+            parent = groups[g].parent
+            if parent in names:
+                link = np.zeros((len(groups[g]), len(groups[parent])), dtype=bool)
+                for o, compat in enumerate(groups[g].compat):
+                    link[o, np.asarray(compat, dtype=int)] = True
+                self.links[g] = (parent, link)
+        self.memo_table: dict[tuple, tuple | None] = {}
+        self.memo_best: dict[tuple, tuple | None] = {}
+
+    def table(self, pivot: str, p: int, base: dict[str, float]):
+        """Feasible combinations and their line needs with the pivot at option ``p``."""
+        groups = self.problem.groups
+        allowed = []
+        for g in self.names:
+            opts = np.arange(len(groups[g]))
+            if g in self.problem.forced:
+                opts = opts[opts == self.problem.forced[g]]
+            if groups[g].parent == pivot:
+                opts = np.array([o for o in opts if p in set(np.asarray(groups[g].compat[o]).tolist())], dtype=int)
+            allowed.append(opts)
+        offsets = tuple(float(c.terms[pivot][p]) if pivot in c.terms else 0.0 for c in self.couplings)
+        active = tuple(i for i, cut in enumerate(self.cuts) if p in cut.get(pivot, [p]))
+        base_key = tuple(base.get(l, 0.0) for l in self.lines)
+        key = (tuple(tuple(a.tolist()) for a in allowed), offsets, active, base_key)
+        if key in self.memo_table:
+            return self.memo_table[key]
+        out = None
+        if all(len(a) for a in allowed):
+            grid = np.meshgrid(*allowed, indexing="ij")
+            idx = {g: a.ravel() for g, a in zip(self.names, grid)}
+            ok = np.ones(len(idx[self.names[0]]), dtype=bool)
+            for g, (parent, link) in self.links.items():
+                ok &= link[idx[g], idx[parent]]
+            for c, off in zip(self.couplings, offsets):
+                lhs = off + sum(np.asarray(coef, float)[idx[g]] for g, coef in c.terms.items() if g != pivot)
+                ok &= (lhs <= c.rhs + 1e-9) if c.sense == "<=" else (lhs >= c.rhs - 1e-9)
+            for i in active:
+                ok &= ~np.all([np.isin(idx[g], opts) for g, opts in self.cuts[i].items() if g != pivot], axis=0)
+            if ok.any():
+                idx = {g: a[ok] for g, a in idx.items()}
+                needs = {}
+                for l, b in zip(self.lines, base_key):
+                    units = b + sum(self.units[g][l][idx[g]] for g in self.names)
+                    needs[l] = np.ceil(np.round(units * self.problem.factor, 6)).astype(int)
+                out = (key, idx, needs)
+        self.memo_table[key] = out
+        return out
+
+    def best(self, table, y: frozenset[str], pricer: LinePricer, objective: str):
+        """Cheapest row of ``table`` buying from the suppliers in ``y``: (lines, cost, choice)."""
+        key, idx, needs = table
+        if (key, y) in self.memo_best:
+            return self.memo_best[(key, y)]
+        n = len(idx[self.names[0]])
+        cost = np.zeros(n)
+        count = np.zeros(n, dtype=int)
+        for l, need in needs.items():
+            values, inverse = np.unique(need, return_inverse=True)
+            cost += np.array([pricer(l, int(q), y) for q in values])[inverse.ravel()]
+            count += need > 0
+        fin = np.flatnonzero(np.isfinite(cost))
+        out = None
+        if len(fin):
+            order = np.lexsort((cost[fin], count[fin])) if objective == "lines" else np.argsort(cost[fin], kind="stable")
+            i = int(fin[order[0]])
+            out = (int(count[i]), float(cost[i]), {g: int(idx[g][i]) for g in self.names})
+        self.memo_best[(key, y)] = out
+        return out
 
 
 # --------------------------------------------------------------------------- checks of a MILP solution
