@@ -131,7 +131,8 @@ def device_thermal(result: DesignResult, role: str) -> DeviceThermal:
     rows = _chosen_rows(result)
     dev, sink = rows[role], rows["heatsink"]
     d = result.check.design
-    rth_cs = float(sink["rth_cs_k_w"]) if _given(sink.get("rth_cs_k_w")) else float(thermal.rth_cs_default_k_w(dev["package"]))
+    kit = sink.get("rth_cs_k_w")
+    rth_cs = float(kit) if _given(kit) else float(thermal.rth_cs_default_k_w(dev["package"]))
     p_w, t_sink = float(d["p_device_max_w"]), float(d["t_sink_c"])
     t_case = float(thermal.case_temp_c(t_sink, p_w, rth_cs))
     return DeviceThermal(
@@ -164,7 +165,8 @@ def _limit_a(dev: dict, vce_v: np.ndarray) -> np.ndarray:
     """DC SOA current limit of one catalogue row at 25 degC (:func:`soa.soa_current_limit_a`)."""
     bp_v, bp_a = soa.pad_curves([(np.array(dev["soa_v"]), np.array(dev["soa_a"])) if len(dev["soa_v"]) else None])
     vce = np.atleast_2d(np.asarray(vce_v, dtype=float))
-    lim = soa.soa_current_limit_a(vce, bp_v, bp_a, np.array([dev["ic_max_a"]]), np.array([dev["pd_max_w"]]), np.array([dev["vceo_v"]]))
+    ratings = (np.array([dev["ic_max_a"]]), np.array([dev["pd_max_w"]]), np.array([dev["vceo_v"]]))
+    lim = soa.soa_current_limit_a(vce, bp_v, bp_a, *ratings)
     return np.asarray(lim)[0]
 
 
@@ -343,7 +345,8 @@ def draw_soa(data: SoaPlot, spec_name: str = ""):
     )
     if data.short_circuit is not None:
         v, i, m = data.short_circuit
-        ax.plot([v], [i], "s", color="tab:red", mfc="none", ms=9, mew=1.8, label=f"output short at full drive: margin {_pct(m)}")
+        ax.plot([v], [i], "s", color="tab:red", mfc="none", ms=9, mew=1.8,
+                label=f"output short at full drive: margin {_pct(m)}")
     ax.set_xscale("log")
     ax.set_yscale("log")
     _plain_log_ticks(ax.xaxis)
@@ -383,10 +386,12 @@ def draw_thermal(bars: list[DeviceThermal], rth_sa_k_w: float, n_on_sink: int, s
             if abs(hi) >= 0.035 * top_c:
                 ax.text(xi, b0 + hi / 2, f"{hi:.0f} °C" if level == "T_amb" else f"+{hi:.1f} K",
                         ha="center", va="center", fontsize=9)
-            ax.text(xi + half + 0.03, yl, f"{level} {b0 + hi:.0f} °C", ha="left", va="center", fontsize=8.5, color="0.2")
+            ax.text(xi + half + 0.03, yl, f"{level} {b0 + hi:.0f} °C", ha="left", va="center",
+                    fontsize=8.5, color="0.2")
         bottom = bottom + h
     for k, lim in enumerate(sorted({b.tj_limit_c for b in bars})):
-        ax.axhline(lim, color="black", ls="--", lw=1.4, label="junction limit (Tj max − derating)" if k == 0 else None)
+        ax.axhline(lim, color="black", ls="--", lw=1.4,
+                   label="junction limit (Tj max − derating)" if k == 0 else None)
         ax.text(-0.55, lim, f"limit {lim:.0f} °C", ha="left", va="bottom", fontsize=9)
     ticks = [f"{b.mpn} ({b.role.replace('_', ' ')})\nP = {b.p_w:.1f} W; Tj {b.tj_limit_c - b.t_j_c:.1f} K below limit\n"
              f"Rth_cs {b.rth_cs_k_w:g} K/W, Rth_jc {b.rth_jc_k_w:g} K/W" for b in bars]
@@ -524,7 +529,8 @@ def write_plots(result: DesignResult, folder: str | Path, report: dict | None = 
             written += _save(draw_soa(data, name), folder, stem)
         d = result.check.design
         n_on_sink = 2 * (result.targets.channels if result.spec.thermal.shared_heatsink else 1)
-        written += _save(draw_thermal(thermal_plot_data(result), float(d["rth_sa_chosen_k_w"]), n_on_sink, name), folder, "thermal")
+        fig = draw_thermal(thermal_plot_data(result), float(d["rth_sa_chosen_k_w"]), n_on_sink, name)
+        written += _save(fig, folder, "thermal")
     return written
 
 
