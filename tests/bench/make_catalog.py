@@ -63,12 +63,13 @@ BREAK_FACTOR = np.array([1.0, 0.86, 0.68, 0.55])
 #: Transistor classes: share of the pairs, package, code in the mpn, kind, parameter ranges, price
 #: range [currency]. ``vceo`` is a choice set [V]; ``ic``, ``pd`` are uniform ranges [A], [W].
 #: ``small`` (TO-92) and ``driver`` (TO-126, Ic <= 1.5 A) pairs are what the bias current
-#: sources use; ``power`` pairs are output devices, a share of them Darlingtons.
+#: sources use; their counts come from :func:`small_pair_counts` (share 0 here); ``power``
+#: pairs are output devices split by ``share``, a share of them Darlingtons.
 CLASSES: dict[str, dict] = {
-    "TO-92": dict(share=0.08, package="TO-92", code="S", kind="small", vceo=(45, 60, 80, 120, 160, 180),
+    "TO-92": dict(share=0.0, package="TO-92", code="S", kind="small", vceo=(45, 60, 80, 120, 160, 180),
                   ic=(0.1, 0.8), pd=(0.5, 0.625), pinout="EBC", rth_ja=(200, 250), ft=(100, 300), price=(0.04, 0.15),
                   darlington=0.0),
-    "TO-126 driver": dict(share=0.04, package="TO-126", code="3", kind="driver", vceo=(120, 160, 180), ic=(1.0, 1.5),
+    "TO-126 driver": dict(share=0.0, package="TO-126", code="3", kind="driver", vceo=(120, 160, 180), ic=(1.0, 1.5),
                           pd=(8, 20), pinout="ECB", rth_ja=(100, 100), ft=(60, 150), price=(0.2, 0.45), darlington=0.0),
     "TO-126": dict(share=0.12, package="TO-126", code="1", kind="power", vceo=(60, 80, 100, 120, 160), ic=(2.0, 4.0),
                    pd=(20, 40), pinout="ECB", rth_ja=(100, 100), ft=(3, 60), price=(0.25, 0.5), darlington=0.0),
@@ -247,10 +248,31 @@ def _small_numbers(rng: np.random.Generator, kind: str, n: int) -> dict[str, np.
     )
 
 
-def transistor_pairs(rng: np.random.Generator, pairs: int) -> pd.DataFrame:
+def small_pair_counts(pairs: int, small_pairs: int | None = None) -> tuple[int, int]:
+    """TO-92 and TO-126 driver pairs among ``pairs``: a few, growing slowly with the catalogue.
+
+    Default ``3 + 1 %`` TO-92 and ``1 + 0.5 %`` driver pairs (25 pairs: 3 and 1,
+    as in the demo; 1,000 pairs: 13 and 6); ``small_pairs`` sets the total
+    instead (two thirds TO-92). At most a third of the pairs are small.
+    """
+    if small_pairs is None:
+        to92, drivers = 3 + round(0.01 * pairs), 1 + round(0.005 * pairs)
+    else:
+        to92 = round(2 * small_pairs / 3)
+        drivers = small_pairs - to92
+    cap = pairs // 3
+    to92 = min(to92, cap)
+    return to92, min(drivers, cap - to92)
+
+
+def transistor_pairs(rng: np.random.Generator, pairs: int, small_pairs: int | None = None) -> pd.DataFrame:
     """One row per complementary pair (npn and pnp share the numbers), with its base price."""
     names = list(CLASSES)
-    counts = allocate(pairs, np.array([CLASSES[c]["share"] for c in names]))
+    power = [c for c in names if CLASSES[c]["kind"] == "power"]
+    to92, drivers = small_pair_counts(pairs, small_pairs)
+    share = allocate(pairs - to92 - drivers, np.array([CLASSES[c]["share"] for c in power]))
+    counts = [to92, drivers] + list(share)
+    assert names[:2] == ["TO-92", "TO-126 driver"]
     width = max(3, len(str(pairs)))
     frames = []
     serial = 0
@@ -484,6 +506,7 @@ def write_catalog(
     breaks: tuple[int, int] = (1, 4),
     seed: int = 0,
     diodes: int = 3,
+    small_pairs: int | None = None,
 ) -> dict[str, int]:
     """Write an invented catalogue folder (formats.md layout) and return the rows per file.
 
@@ -495,6 +518,7 @@ def write_catalog(
     breaks : smallest and largest number of price breaks per (part, supplier)
     seed : seed of ``numpy.random.default_rng``; the same arguments give the same files
     diodes : bias diodes (2..4), written with one reference LED
+    small_pairs : TO-92 and TO-126 driver pairs among ``pairs`` (default :func:`small_pair_counts`)
 
     Returns
     -------
@@ -506,7 +530,7 @@ def write_catalog(
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(seed)
-    tr = transistor_rows(transistor_pairs(rng, pairs))
+    tr = transistor_rows(transistor_pairs(rng, pairs, small_pairs))
     op = opamp_rows(rng, opamps)
     rg = regulator_rows(rng, regulators)
     hs = heatsink_rows(rng, heatsinks)
@@ -553,7 +577,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("out", help="target folder")
     ap.add_argument("--size", choices=list(SIZES), default="small")
     ap.add_argument("--seed", type=int, default=0)
-    for name in ("pairs", "opamps", "regulators", "heatsinks", "passive_families", "suppliers", "diodes"):
+    for name in ("pairs", "opamps", "regulators", "heatsinks", "passive_families", "suppliers", "diodes", "small_pairs"):
         ap.add_argument(f"--{name.replace('_', '-')}", type=int, default=None, dest=name)
     ap.add_argument("--breaks", type=int, nargs=2, default=(1, 4), metavar=("MIN", "MAX"))
     args = ap.parse_args(argv)
@@ -562,7 +586,7 @@ def main(argv: list[str] | None = None) -> int:
         if getattr(args, name) is not None:
             counts[name] = getattr(args, name)
     rows = write_catalog(args.out, **counts, breaks=tuple(args.breaks), seed=args.seed,
-                         diodes=args.diodes if args.diodes is not None else 3)
+                         diodes=args.diodes if args.diodes is not None else 3, small_pairs=args.small_pairs)
     print(", ".join(f"{k}: {v}" for k, v in rows.items()))
     return 0
 
