@@ -64,10 +64,10 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
     else:
         result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver,
                      spec_label=args.spec, time_limit=getattr(args, "time_limit", None))
-    rep = build_report(result, catalog.file_sha256, args.solver)
     if not result.feasible:
         from partpick.optimize.explain import suggestions
 
+        rep = build_report(result, catalog.file_sha256, args.solver)
         if not term.quiet:
             term.print("No feasible design; searching what would make it feasible ...")
         rep["suggestions"] = suggestions(result.spec, catalog, tuple(args.exclude))

@@ -133,7 +133,7 @@ def passive_roles(spec: Spec, pool: Pool, targets: Targets) -> list[PassiveRole]
     pa = pool.passives.reset_index(drop=True)
     res = pa[pa["kind"] == "resistor"]
     single = spec.supply.arrangement == "single"
-    v_cap = spec.supply.v_max if single else spec.supply.v_max  # rail or whole supply (conservative)
+    v_cap = spec.supply.v_max  # the whole unregulated input (conservative)
     rail_cap = spec.supply.v_max / (2.0 if single else 1.0)
     roles: list[PassiveRole] = []
 

@@ -14,14 +14,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from partpick.evaluate.context import Pool, Targets, quiescent_a
-from partpick.model import bias, dissipation, opamp, passives, regulator, soa, swing, thermal
+from partpick.model import bias, dissipation, opamp, regulator, soa, swing, thermal
 from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
-    DVBE_DT_V_K,
     GAIN_ERROR_WARN,
     LOOP_GAIN_MAX,
     RESISTOR_POWER_MARGIN,
-    VT_V,
 )
 from partpick.spec import Spec
 
@@ -236,5 +234,3 @@ def check_selection(
 def _given(x) -> bool:
     return x is not None and not (isinstance(x, float) and math.isnan(x))
 
-
-__all__ = ["Margin", "SelectionCheck", "check_selection", "VT_V", "DVBE_DT_V_K", "passives"]

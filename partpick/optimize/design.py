@@ -163,6 +163,18 @@ def check_chosen(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, as
     )
 
 
+def option_sources(result: DesignResult, group: str, option: int):
+    """(mpn or family, units per board, role) of every line one option uses."""
+    for line, per_board, role in result.assembly.problem.groups[group].usage[option]:
+        yield result.assembly.lines[line][0], per_board, role
+
+
+def usable_sources(result: DesignResult) -> set[str]:
+    """Every mpn or family that some option of the assembled problem could use."""
+    groups = result.assembly.problem.groups
+    return {src for g in groups for o in range(len(groups[g])) for src, _q, _r in option_sources(result, g, o)}
+
+
 def _ccs_rth_ja(a: pd.Series, b: pd.Series) -> float:
     from partpick.evaluate.stage import _rth_ja
 

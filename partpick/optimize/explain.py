@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.optimize.design import DesignResult, prepare, run
+from partpick.optimize.design import DesignResult, infeasible_cause, option_sources, prepare, run, usable_sources
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -140,7 +140,7 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
     if mpn in best.pool.left_out:
         return WhyAnswer(mpn, roles[0], False, f"left out before any check: {best.pool.left_out[mpn]}")
     if best.feasible and best.assembly is not None:
-        used = {src for g, o in best.solution.choice.items() for src, _q, _r in _sources(best, g, o)}
+        used = {src for g, o in best.solution.choice.items() for src, _q, _r in option_sources(best, g, o)}
         if mpn in used:
             return WhyAnswer(mpn, roles[0], True, "it is in the optimal design", best.solution.total, best.solution.total)
     reason = _first_rejection(best, mpn, roles)
@@ -155,16 +155,11 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
     return WhyAnswer(mpn, role, False, "feasible but not the cheapest", forced.solution.total, opt)
 
 
-def _sources(result: DesignResult, group: str, option: int):
-    for line, q, role in result.assembly.problem.groups[group].usage[option]:
-        yield result.assembly.lines[line][0], q, role
-
-
 def _usable(result: DesignResult, mpn: str) -> bool:
     asm = result.assembly
     if asm is None or asm.problem is None:
         return False
-    return any(src == mpn for g in asm.problem.groups for o in range(len(asm.problem.groups[g])) for src, _q, _r in _sources(result, g, o))
+    return mpn in usable_sources(result)
 
 
 def _first_rejection(result: DesignResult, mpn: str, roles: list[str]) -> str | None:
@@ -237,12 +232,7 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     if len(mine):
         reason = str(mine["reason"].iloc[0])
     else:
-        causes = infeasible_reasons(alt)
+        causes = infeasible_cause(alt)
         reason = causes[0] if causes else "no design with it meets the couplings with the other roles"
     return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
 
-
-def infeasible_reasons(result: DesignResult) -> list[str]:
-    from partpick.optimize.design import infeasible_cause
-
-    return infeasible_cause(result)

@@ -17,7 +17,7 @@ import numpy as np
 
 from partpick.catalog import Catalog
 from partpick.errors import InputError, Problem
-from partpick.optimize.design import DesignResult, finish, prepare
+from partpick.optimize.design import DesignResult, finish, prepare, usable_sources
 from partpick.optimize.milp import Coupling
 from partpick.report.build import SCHEMA, value_text
 from partpick.spec import Spec
@@ -202,7 +202,7 @@ def _changes(result: DesignResult, previous: Previous, excluded: tuple[str, ...]
     for o in rep["order"]:
         for r in o["roles"]:
             new_cost[r] = new_cost.get(r, 0.0) + o["extended_price"] / len(o["roles"])
-    usable = {src for g in result.assembly.problem.groups for o in range(len(result.assembly.problem.groups[g])) for src, _q, _r in _sources(result, g, o)}
+    usable = usable_sources(result)
     out = []
     for role in sorted(set(previous.parts) | set(new_parts), key=_role_key):
         old = previous.parts.get(role, [])
@@ -223,11 +223,6 @@ def _changes(result: DesignResult, previous: Previous, excluded: tuple[str, ...]
                 reasons = ["cheaper"]
         out.append(Change(role, _text(old), _text(new), "; ".join(reasons), round(new_cost.get(role, 0.0) - previous.role_cost.get(role, 0.0), 2)))
     return out
-
-
-def _sources(result: DesignResult, group: str, option: int):
-    for line, q, role in result.assembly.problem.groups[group].usage[option]:
-        yield result.assembly.lines[line][0], q, role
 
 
 def _text(parts: list[tuple[str, str | None]]) -> str:
