@@ -19,7 +19,9 @@ from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
     GAIN_ERROR_WARN,
     LOOP_GAIN_MAX,
+    DVBE_DT_V_K,
     RESISTOR_POWER_MARGIN,
+    VT_V,
 )
 from partpick.spec import Spec
 
@@ -95,29 +97,42 @@ def check_selection(
         if ip > 2 * d["hfe_at_a"]:
             warnings.append(f"{d['mpn']}: peak current {ip:.2f} A is well above its hFE test current {d['hfe_at_a']:g} A; hFE taken as falling with 1/Ic")
 
+    # Section 3 (a'): the current source's current, needed before the sink's heat.
+    if feed == "current_source":
+        assert ccs is not None
+        r_e, r_ref = feed_values
+        vref = ccs["vref_v"]
+        vbe_s = max(float(swing.vbe_at_v(t["vbe_on_v"], t["vbe_on_at_a"], 0.01)) for t in ccs["transistors"])
+        standing = (vref - vbe_s) / r_e
+        p_t = float(swing.ccs_transistor_dissipation_w(vs_max, standing))
+    on_sink = feed == "current_source" and ccs["mount"] == "heatsink"
+
     # Section 4 and 6: dissipation and temperatures with the chosen heatsink.
-    n_dev = 2 * (ch if spec.thermal.shared_heatsink else 1)
+    per_sink = ch if spec.thermal.shared_heatsink else 1
+    n_dev = 2 * per_sink
     p_dev = float(dissipation.worst_case_device_dissipation_w(vs_max, z, phi, iq))
-    p_sink = n_dev * p_dev
+    p_sink = n_dev * p_dev + (per_sink * float(swing.ccs_pair_sink_heat_w(vs_max, standing)) if on_sink else 0.0)
     rth_sa = heatsink["rth_sa_k_w"]
     rth_cs_override = heatsink.get("rth_cs_k_w")
     t_sink = float(thermal.sink_temp_c(amb, rth_sa, p_sink))
     tj_reached, soa_worst, loop_worst, rth_req = -math.inf, math.inf, 0.0, math.inf
     for role, d in dev.items():
-        rth_cs = float(rth_cs_override) if _given(rth_cs_override) else float(thermal.rth_cs_default_k_w(d["package"]))
+        rth_cs = _rth_cs(rth_cs_override, d["package"])
         t_case = float(thermal.case_temp_c(t_sink, p_dev, rth_cs))
         tj = float(thermal.junction_temp_c(t_case, p_dev, d["rth_jc_k_w"]))
         tj_lim = d["tj_max_c"] - spec.thermal.tj_derate_c
         tj_reached = max(tj_reached, tj)
-        rth_req = min(rth_req, float(thermal.required_rth_sa_k_w(tj_lim, amb, p_dev, d["rth_jc_k_w"], rth_cs, p_sink)))
         # Section 5: SOA at this case temperature.
         bp_v, bp_a = soa.pad_curves([(np.array(d["soa_v"]), np.array(d["soa_a"])) if len(d["soa_v"]) else None])
         derate = float(soa.derating_factor(d["tj_max_c"], t_case))
         vce, ic = soa.load_line(np.array([vs_max]), vp, ip, phi)
-        limit = soa.soa_current_limit_a(vce, bp_v, bp_a, np.array([d["ic_max_a"]]), np.array([d["pd_max_w"]]), np.array([d["vceo_v"]])) * derate
+        limit_25 = soa.soa_current_limit_a(vce, bp_v, bp_a, np.array([d["ic_max_a"]]), np.array([d["pd_max_w"]]), np.array([d["vceo_v"]]))
+        limit = limit_25 * derate
         margin = float(soa.soa_margin(vce, ic, limit)[0])
+        util = float(np.max(np.where(ic > 0, ic / np.maximum(limit_25, 1e-12), 0.0)))
         if spec.output.short_circuit:
             margin = min(margin, float(soa.short_circuit_margin(vs_max, ip, bp_v, bp_a, np.array([d["ic_max_a"]]), np.array([d["pd_max_w"]]), np.array([d["vceo_v"]]), derate)[0]))
+            util = max(util, ip / max(float(soa.soa_current_limit_a(np.array([vs_max]), bp_v[0], bp_a[0], d["ic_max_a"], d["pd_max_w"], d["vceo_v"])[0]), 1e-12))
         soa_worst = min(soa_worst, margin)
         if role == "output_npn":
             per = np.where(ic[0] > 0, 1 - ic[0] / np.maximum(limit[0], 1e-12), np.inf)
@@ -126,6 +141,13 @@ def check_selection(
         theta = float(bias.loop_theta_k_w(d["rth_jc_k_w"], rth_cs, rth_sa, n_dev))
         loop = float(bias.thermal_loop_gain(theta, vs_max, re_ohm, iq))
         loop_worst = max(loop_worst, loop)
+        # The sink this device tolerates: junction, SOA at Tc and loop gain (model s.13).
+        rth_req = min(rth_req, float(thermal.required_rth_sa_k_w(tj_lim, amb, p_dev, d["rth_jc_k_w"], rth_cs, p_sink)))
+        tc_soa = d["tj_max_c"] - util * (d["tj_max_c"] - 25.0)
+        rth_req = min(rth_req, (tc_soa - amb - p_dev * rth_cs) / p_sink)
+        if not spec.stage.bias_tracking:
+            theta_max = LOOP_GAIN_MAX * (re_ohm + VT_V / iq) / (vs_max * DVBE_DT_V_K)
+            rth_req = min(rth_req, (theta_max - d["rth_jc_k_w"] - rth_cs) / n_dev)
         m[role] += [
             Margin("SOA at Tc", margin, "", 1.0),
             Margin("Vceo breakdown", float(soa.vceo_margin_v(d["vceo_v"], span_max)), "V", 1.2 * span_max),
@@ -134,7 +156,6 @@ def check_selection(
         ]
         if not spec.stage.bias_tracking:
             m[role].append(Margin("thermal loop gain", LOOP_GAIN_MAX - loop, "", LOOP_GAIN_MAX))
-    m["heatsink"] = [Margin("Rth_sa for Tj", rth_req - rth_sa, "K/W", rth_req)]
 
     # Section 7: emitter resistor.
     p_re = float(bias.re_power_w(ip, re_ohm))
@@ -152,21 +173,26 @@ def check_selection(
         ]
         p_feed_w = p_r1
     else:
-        assert ccs is not None
-        r_e, r_ref = feed_values
-        vref = ccs["vref_v"]
-        vbe_s = max(float(swing.vbe_at_v(t["vbe_on_v"], t["vbe_on_at_a"], 0.01)) for t in ccs["transistors"])
-        standing = (vref - vbe_s) / r_e
-        p_t = float(swing.ccs_transistor_dissipation_w(vs_max, standing))
         m["bias_source_transistor"] = [
             Margin("current at the peak", standing - BASE_DRIVE_MARGIN * ib, "A", BASE_DRIVE_MARGIN * ib),
             Margin("compliance", float(swing.ccs_compliance_margin_v(vs_min, base_pk)), "V", 1.0),
         ]
         for t in ccs["transistors"]:
             tj_lim = t["tj_max_c"] - spec.thermal.tj_derate_c
-            tj_t = float(swing.ccs_junction_temp_c(amb, p_t, ccs["rth_ja_k_w"]))
+            if on_sink:
+                rth_cs_t = _rth_cs(rth_cs_override, t["package"])
+                t_case_t = float(thermal.case_temp_c(t_sink, p_t, rth_cs_t))
+                tj_t = float(thermal.junction_temp_c(t_case_t, p_t, t["rth_jc_k_w"]))
+                rth_req = min(rth_req, float(thermal.required_rth_sa_k_w(tj_lim, amb, p_t, t["rth_jc_k_w"], rth_cs_t, p_sink)))
+            else:
+                tj_t = float(swing.ccs_junction_temp_c(amb, p_t, ccs["rth_ja_k_w"]))
+                t_case_t = tj_t  # in free air the case is taken at the junction (conservative)
+            bp_v, bp_a = soa.pad_curves([(np.array(t["soa_v"]), np.array(t["soa_a"])) if len(t["soa_v"]) else None])
+            i_soa = float(soa.soa_current_limit_a(np.array([2.0 * vs_max]), bp_v[0], bp_a[0], t["ic_max_a"], t["pd_max_w"], t["vceo_v"])[0])
+            i_soa *= float(soa.derating_factor(t["tj_max_c"], t_case_t))
             m["bias_source_transistor"] += [
                 Margin(f"{t['mpn']} junction temperature", tj_lim - tj_t, "K", tj_lim - amb),
+                Margin(f"{t['mpn']} SOA at {2 * vs_max:.1f} V", 1.0 - standing / max(i_soa, 1e-12), "", 1.0),
                 Margin(f"{t['mpn']} Vceo", float(soa.vceo_margin_v(t["vceo_v"], span_max)), "V", 1.2 * span_max),
             ]
         p_e = standing**2 * r_e
@@ -174,6 +200,11 @@ def check_selection(
         m["bias_source_resistor"] = [Margin("power rating", feed_rating_w - RESISTOR_POWER_MARGIN * max(p_e, p_ref), "W", RESISTOR_POWER_MARGIN * max(p_e, p_ref))]
         m["bias_source_reference"] = [Margin("current rating", ccs["ref_if_max_a"] - (vs_max - vref) / r_ref, "A", ccs["ref_if_max_a"])]
         p_feed_w = None
+    n_on_sink = n_dev + (2 * per_sink if on_sink else 0)
+    m["heatsink"] = [
+        Margin("Rth_sa limit", rth_req - rth_sa, "K/W", rth_req),
+        Margin("device count", float(heatsink["max_devices"] - n_on_sink), "", float(n_on_sink)),
+    ]
     m["bias_diode"] = [Margin("current rating", diode["if_max_a"] - 2 * standing, "A", 2 * standing)]
 
     # Section 8: the driver op-amp, with the chosen gain pair.
@@ -221,6 +252,7 @@ def check_selection(
         rth_sa_required_k_w=rth_req, rth_sa_chosen_k_w=rth_sa, soa_margin=soa_worst,
         thermal_loop_gain=loop_worst, efficiency=min(eff, 1.0),
         bias_feed=feed, bias_current_a=standing, bias_resistor_power_w=p_feed_w,
+        bias_source_mount=(ccs["mount"] if feed == "current_source" else None),
         base_current_peak_a=ib, drive_level_v=drive, t_sink_c=t_sink,
         p_regulator_w=p_reg,
         supply_power_w=float(2 * vs_min * ip / np.pi) if spec.supply.arrangement == "split" else float(2 * vs_min * ip / np.pi),
@@ -229,6 +261,11 @@ def check_selection(
     plot["tj_limit_c"] = min(d["tj_max_c"] for d in dev.values()) - spec.thermal.tj_derate_c
     plot["ambient_c"] = amb
     return SelectionCheck(design, m, warnings, plot)
+
+
+def _rth_cs(override, package: str) -> float:
+    """The sink's own case-to-sink figure, else the package's insulated default (model s.13)."""
+    return float(override) if _given(override) else float(thermal.rth_cs_default_k_w(package))
 
 
 def _given(x) -> bool:

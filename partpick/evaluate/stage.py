@@ -33,6 +33,7 @@ from partpick.evaluate.context import Pool, Targets, quiescent_a
 from partpick.model import bias, dissipation, eseries, regulator, soa, swing, thermal
 from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
+    RTH_CS_INSULATED_K_W,
     CCS_COMPLIANCE_V,
     CCS_REFERENCE_CURRENT_A,
     DIODE_DROP_V,
@@ -77,6 +78,16 @@ class StageTable:
     funnel: dict[str, int]
     rejected: pd.DataFrame
     considered: int
+
+
+@dataclass
+class _Sink:
+    """What a configuration's heatsink limits depend on beyond its own numbers."""
+
+    pairs: pd.DataFrame
+    classes: list[float]  # Rth_cs mounting classes (NaN: the package default)
+    n_dev: int  # output devices on one sink
+    channels: int  # channels on one sink
 
 
 # --------------------------------------------------------------------------- rails
@@ -272,7 +283,6 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     re_values = np.unique(res["value_ohm"].to_numpy(float)) if len(res) else np.array([])
     n_r, n_p, n_e = len(rails), len(pairs), len(re_values)
     funnel = {f"regulator: {k}": v for k, v in reg_funnel.items()}
-    funnel["emitter resistor power (s.7): family-value options too weak"] = res.attrs.get("too_weak", 0)
     if n_r == 0:
         funnel["no rail option"] = 1
     if n_p == 0:
@@ -303,11 +313,10 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     util = _soa_utilisation(pool, pairs, rails, spec, targets)[pi_, ri]
 
     # Thermal: the largest Rth_sa per mounting class (model s.13).
-    n_dev = 2 * (targets.channels if spec.thermal.shared_heatsink else 1)
+    per_sink = targets.channels if spec.thermal.shared_heatsink else 1
     p_dev = dissipation.worst_case_device_dissipation_w(rail_max, targets.z_min_ohm, targets.phase_rad, iq)
     classes = sorted({float(x) for x in pool.heatsinks["rth_cs_k_w"].dropna()}) + [math.nan]
-    rth_max = np.stack([_rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, c) for c in classes], axis=1)
-    thermal_ok = np.nanmax(rth_max, axis=1) > 0
+    sink = _Sink(pairs, classes, 2 * per_sink, per_sink)
 
     core = pd.DataFrame(
         dict(
@@ -317,9 +326,11 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
             vceo_margin_v=vceo_m, ic_margin_a=ic_m, soa_util=util, p_device_w=p_dev,
             vce_sat_v=w["vce_sat_v"][pi_], vbe_v=w["vbe_v"][pi_], hfe=w["hfe"][pi_],
             vceo_v=w["vceo_v"][pi_], ic_max_a=w["ic_max_a"][pi_],
-            rth_sa_best_k_w=np.nanmax(rth_max, axis=1),
         )
     )
+    rth_max = _stage_rth(spec, core, sink)
+    core["rth_sa_best_k_w"] = np.nanmax(rth_max, axis=1)
+    thermal_ok = core["rth_sa_best_k_w"].to_numpy() > 0
     core_checks = {
         "transistor headroom (s.3)": head >= 0,
         "driver reach (s.3)": reach >= 0,
@@ -332,16 +343,15 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     core = core[core_ok].reset_index(drop=True)
     rth_max = rth_max[core_ok]
 
-    feeds = _feeds(spec, pool, targets, core, vd_min)
+    feeds = _feeds(spec, pool, targets, core, vd_min, sink)
     core_i = feeds["core_i"].to_numpy().astype(int)
     k = core.iloc[core_i].reset_index(drop=True)
-    k["feed"] = feeds["feed"].to_numpy()
-    k["ccs_n_i"] = feeds["ccs_n_i"].to_numpy()
-    k["ccs_p_i"] = feeds["ccs_p_i"].to_numpy()
-    k["ref_i"] = feeds["ref_i"].to_numpy()
-    k["ref_per_source"] = feeds["ref_per_source"].to_numpy()
-    k["standing_a"] = feeds["standing_a"].to_numpy()
-    rth_k = rth_max[core_i]
+    k["core_i"] = core_i
+    for name in ("feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"):
+        k[name] = feeds[name].to_numpy()
+    own = feeds.attrs["rth"]
+    rth_k = np.where(np.isnan(own), rth_max[core_i], own)
+    k["rth_sa_best_k_w"] = np.nanmax(rth_k, axis=1)
     unserved = feeds.attrs["unserved"]
     funnel["bias feed (s.3)"] = int(len(unserved))
     feed_rejected = core.iloc[unserved].copy()
@@ -358,7 +368,8 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     k["p_regulator_w"] = p_reg
     k["regulator_tj_margin_c"] = reg_margin
     ok = reg_margin >= 0
-    funnel["regulator heat (s.10)"] = int((~ok).sum())
+    # The funnel counts core configurations: one is removed here when none of its feeds survives.
+    funnel["regulator heat (s.10)"] = int(len(np.setdiff1d(core_i, core_i[ok])))
     k, rth_k = k[ok].reset_index(drop=True), rth_k[ok]
     feed_opts = feeds.attrs["options"]
     feed_opts = _remap(feed_opts, np.flatnonzero(ok))
@@ -373,8 +384,28 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     )
 
 
-def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_class) -> np.ndarray:
-    """Largest Rth_sa keeping Tj, the derated SOA and the loop gain for each device of the pair."""
+def _stage_rth(spec: Spec, core: pd.DataFrame, sink: _Sink, p_extra_w: np.ndarray | float = 0.0) -> np.ndarray:
+    """Largest Rth_sa of every core configuration per mounting class [row, class].
+
+    ``p_extra_w`` is heat on the sink beyond the output devices' (the current
+    sources when they are mounted there).
+    """
+    pi_ = core["pair_i"].to_numpy(int)
+    col = lambda name: core[name].to_numpy(float)  # noqa: E731
+    limits = [
+        _rth_sa_max(spec, sink.pairs, pi_, col("p_device_w"), sink.n_dev, col("soa_util"), col("rail_max_v"),
+                    col("re_ohm"), col("iq_a"), c, p_extra_w)
+        for c in sink.classes
+    ]
+    return np.stack(limits, axis=1) if len(core) else np.zeros((0, len(sink.classes)))
+
+
+def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_class, p_extra_w=0.0) -> np.ndarray:
+    """Largest Rth_sa keeping Tj, the derated SOA and the loop gain for each device of the pair.
+
+    The loop gain (model s.7) counts the output devices only: heat on the sink
+    that does not follow their current does not feed the loop.
+    """
     amb = spec.thermal.ambient_c
     out = np.full(len(pi_), np.inf)
     for s in ("_n", "_p"):
@@ -382,7 +413,7 @@ def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_c
         rth_jc = pairs["rth_jc_k_w" + s].to_numpy(float)[pi_]
         package = pairs["package"].to_numpy()[pi_]
         rth_cs = np.asarray(thermal.rth_cs_default_k_w(package), float) if math.isnan(rth_cs_class) else np.full(len(pi_), rth_cs_class)
-        p_sink = n_dev * p_dev
+        p_sink = n_dev * p_dev + p_extra_w
         tj_lim = tj_max - spec.thermal.tj_derate_c
         by_tj = thermal.required_rth_sa_k_w(tj_lim, amb, p_dev, rth_jc, rth_cs, p_sink)
         tc_soa = tj_max - util * (tj_max - 25.0)
@@ -397,19 +428,24 @@ def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_c
     return out
 
 
-def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float) -> pd.DataFrame:
+def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float, sink: _Sink) -> pd.DataFrame:
     """Expand core configurations by bias feed; attach the feed-resistor options.
 
-    Returns one row per (core config, feed) that some resistor family can
-    build, with ``standing_a``; ``attrs['options']`` lists the feed-resistor
-    lines (compat with the expanded rows), ``attrs['rejected']`` counts the
-    core configurations no feed can serve.
+    Returns one row per (core config, feed variant) that some resistor family
+    can build, with ``standing_a`` and the current-source mounting;
+    ``attrs['options']`` lists the feed-resistor lines (compat with the
+    expanded rows), ``attrs['rth']`` the heatsink limits [row, class] of rows
+    whose current sources sit on the heatsink (NaN elsewhere: the core
+    configuration's own limits hold), ``attrs['unserved']`` the core
+    configurations no feed can serve.
     """
     fams = pool.passives[pool.passives["kind"] == "resistor"].reset_index(drop=True)
     mode = spec.stage.bias_feed
     rows: list[pd.DataFrame] = []
     options: list[pd.DataFrame] = []
+    rth: list[np.ndarray] = []
     n = len(core)
+    n_cls = len(sink.classes)
     rail_min = core["rail_min_v"].to_numpy(float)
     rail_max = core["rail_max_v"].to_numpy(float)
     base_pk = core["base_peak_v"].to_numpy(float)
@@ -430,7 +466,9 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
         idx = np.flatnonzero(served)
         pos = -np.ones(n, dtype=int)
         pos[idx] = offset + np.arange(len(idx))
-        rows.append(pd.DataFrame(dict(core_i=idx, feed="resistor", ccs_n_i=-1, ccs_p_i=-1, ref_i=-1, ref_per_source=0, standing_a=best_i[idx])))
+        rows.append(pd.DataFrame(dict(core_i=idx, feed="resistor", ccs_n_i=-1, ccs_p_i=-1, ref_i=-1, ref_per_source=0,
+                                      standing_a=best_i[idx], ccs_mount="", ccs_package="", sink_devices=sink.n_dev)))
+        rth.append(np.full((len(idx), n_cls), np.nan))
         for f, r1, p, fits in per_fam:
             ks = np.flatnonzero(fits)
             options.append(pd.DataFrame(dict(k=pos[ks], family=f.family, kind="bias_resistor", v1=r1[ks], v2=np.nan, p1_w=p[ks], p2_w=np.nan)))
@@ -440,26 +478,44 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
         res_ok = np.zeros(n, dtype=bool)
     ccs_ok = np.zeros(n, dtype=bool)
     if mode in ("current_source", "auto"):
-        for part in _ccs_variants(spec, pool, targets, core, fams):
-            idx, frame, opts = part
+        for idx, frame, opts, limits in _ccs_variants(spec, pool, targets, core, fams, sink):
             frame["core_i"] = idx
             pos = offset + np.arange(len(idx))
             opts["k"] = pos[opts["row"].to_numpy()]
             rows.append(frame)
             options.append(opts.drop(columns="row"))
+            rth.append(np.full((len(idx), n_cls), np.nan) if limits is None else limits)
             offset += len(idx)
             ccs_ok[idx] = True
-    out = pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a"])
+    columns = ["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"]
+    out = pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=columns)
     out.attrs["options"] = pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"])
+    out.attrs["rth"] = np.concatenate(rth) if rth else np.zeros((0, n_cls))
     unserved = np.flatnonzero(~(res_ok | ccs_ok))
     out.attrs["unserved"] = unserved
     out.attrs["unserved_note"] = [_feed_note(mode, r1_max[i] if mode != "current_source" else np.nan, core.iloc[i], vd_min, res_ok[i], fams) for i in unserved]
     return out
 
 
-def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame):
-    """Current-source feeds (model s.3 (a')): small complementary pair x reference x resistor family."""
-    tr = pool.transistors
+def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame, sink: _Sink):
+    """Current-source feeds (model s.3 (a')): small complementary pair x reference x mounting.
+
+    Yields ``(core rows served, variant frame, resistor options, sink limits)``.
+    A source transistor sits either in free air (its junction from Rth_ja) or,
+    when its package has an insulated mounting, on the channel's heatsink:
+    then the pair of sources adds :func:`~partpick.model.swing.ccs_pair_sink_heat_w`
+    to the sink, every output device's limits are recomputed with that heat,
+    and the source's own junction and SOA limit the sink too; the sink must
+    also mount its package and hold two more devices per channel.
+
+    Conservative readings (also in the issue notes): each source dissipates
+    ``2 * Vs_max * I_ccs`` at its junction (model s.3, the peak when the base
+    sits at the far rail), its SOA is checked at ``Vce = 2 * Vs_max`` at the
+    case temperature that peak gives; in free air the case is taken at the
+    junction temperature; the sink limits of a variant are computed at the
+    largest current any usable resistor family gives it; the free-air Rth_ja
+    is the larger of the pair's two.
+    """
     small = pair_options(pool, "complement")
     # Small-signal and driver pairs serve as current sources; power pairs do not.
     small = small[np.maximum(small["ic_max_a_n"], small["ic_max_a_p"]) <= CCS_MAX_IC_A].reset_index(drop=True)
@@ -475,44 +531,110 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     span = core["span_max_v"].to_numpy(float)
     amb = spec.thermal.ambient_c
     for s in small.itertuples(index=False):
-        vbe = max(float(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, 0.01)), float(swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, 0.01)))
-        rth_ja = min(_rth_ja(s.rth_ja_k_w_n, s.package), _rth_ja(s.rth_ja_k_w_p, s.package))
-        tj_lim = min(s.tj_max_c_n, s.tj_max_c_p) - spec.thermal.tj_derate_c
-        vceo_ok = soa.vceo_margin_v(min(s.vceo_v_n, s.vceo_v_p), span) >= 0
+        dev = _ccs_device(s, spec)
+        vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
+        mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
         for d_i, per, vref, if_max in refs:
-            if vref - vbe < CCS_MIN_RE_DROP_V:
+            if vref - dev["vbe_v"] < CCS_MIN_RE_DROP_V:
                 continue
-            r_ref_ideal = swing.ccs_reference_resistor_ohm(rail_min, vref)
-            best = np.zeros(len(core))
-            opts = []
+            per_fam = []
             for f in fams.itertuples(index=False):
-                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe, i_req), f.series, f.value_min, f.value_max), float)
-                i_act = (vref - vbe) / r_e
-                r_ref = np.asarray(eseries.nearest_value(r_ref_ideal, f.series, f.value_min, f.value_max), float)
-                i_ref_max = (rail_max - vref) / r_ref
-                p_t = swing.ccs_transistor_dissipation_w(rail_max, i_act)
-                tj = swing.ccs_junction_temp_c(amb, p_t, rth_ja)
-                p_e = i_act**2 * r_e
-                p_ref = (rail_max - vref) ** 2 / r_ref
+                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, dev["vbe_v"], i_req), f.series, f.value_min, f.value_max), float)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    i_act = (vref - dev["vbe_v"]) / r_e
+                    i_ref = swing.ccs_reference_current_a(i_act, dev["hfe"](i_act))
+                    r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(rail_min, vref, i_ref), f.series, f.value_min, f.value_max), float)
+                    i_ref_max = (rail_max - vref) / r_ref
+                    p_e = i_act**2 * r_e
+                    p_ref = (rail_max - vref) ** 2 / r_ref
                 fits = (
                     compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref)
-                    & (tj <= tj_lim) & (i_act <= min(s.ic_max_a_n, s.ic_max_a_p))
-                    & (i_ref_max <= if_max) & (f.power_w >= RESISTOR_POWER_MARGIN * p_e)
-                    & (f.power_w >= RESISTOR_POWER_MARGIN * p_ref)
+                    & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
+                    & (f.power_w >= RESISTOR_POWER_MARGIN * p_e) & (f.power_w >= RESISTOR_POWER_MARGIN * p_ref)
                 )
-                best = np.maximum(best, np.where(fits, i_act, 0.0))
-                opts.append((f.family, r_e, r_ref, p_e, p_ref, fits))
-            idx = np.flatnonzero(best > 0)
-            if not len(idx):
-                continue
-            pos = -np.ones(len(core), dtype=int)
-            pos[idx] = np.arange(len(idx))
-            frame = pd.DataFrame(dict(feed="current_source", ccs_n_i=int(s.npn_i), ccs_p_i=int(s.pnp_i), ref_i=int(d_i), ref_per_source=per, standing_a=best[idx]))
-            opt_frames = []
-            for fam, r_e, r_ref, p_e, p_ref, fits in opts:
-                ks = np.flatnonzero(fits)
-                opt_frames.append(pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks])))
-            yield idx, frame, pd.concat(opt_frames, ignore_index=True)
+                per_fam.append((f.family, r_e, r_ref, p_e, p_ref, np.where(fits, i_act, 0.0)))
+            for mount in mounts:
+                fam_fits = [_ccs_thermal_ok(dev, mount, rail_max, i_f, amb) & (i_f > 0) for *_r, i_f in per_fam]
+                best = np.zeros(len(core))
+                for (*_r, i_f), ok in zip(per_fam, fam_fits):
+                    best = np.maximum(best, np.where(ok, i_f, 0.0))
+                limits = None
+                if mount == "heatsink":
+                    limits = _ccs_sink_limits(spec, core, sink, dev, rail_max, best)
+                    best = np.where(np.nanmax(limits, axis=1) > 0, best, 0.0)
+                idx = np.flatnonzero(best > 0)
+                if not len(idx):
+                    continue
+                pos = -np.ones(len(core), dtype=int)
+                pos[idx] = np.arange(len(idx))
+                frame = pd.DataFrame(dict(
+                    feed="current_source", ccs_n_i=int(s.npn_i), ccs_p_i=int(s.pnp_i), ref_i=int(d_i), ref_per_source=per,
+                    standing_a=best[idx], ccs_mount=mount, ccs_package=s.package if mount == "heatsink" else "",
+                    sink_devices=sink.n_dev + (2 * sink.channels if mount == "heatsink" else 0),
+                ))
+                opt_frames = []
+                for (fam, r_e, r_ref, p_e, p_ref, _i), ok in zip(per_fam, fam_fits):
+                    ks = np.flatnonzero(ok & (best > 0))
+                    opt_frames.append(pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks])))
+                yield idx, frame, pd.concat(opt_frames, ignore_index=True), (None if limits is None else limits[idx])
+
+
+def _ccs_device(s, spec: Spec) -> dict:
+    """The worse of a current-source pair's two devices, figure by figure."""
+    pick = lambda name, f: f(getattr(s, name + "_n"), getattr(s, name + "_p"))  # noqa: E731
+    curves = [(np.array(getattr(s, "soa_v" + x)), np.array(getattr(s, "soa_a" + x))) if len(getattr(s, "soa_v" + x)) else None for x in ("_n", "_p")]
+    bp_v, bp_a = soa.pad_curves(curves)
+    tj_max = pick("tj_max_c", min)
+    return dict(
+        vbe_v=max(float(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, 0.01)), float(swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, 0.01))),
+        hfe=lambda i: np.minimum(swing.hfe_at(s.hfe_min_n, s.hfe_at_a_n, i), swing.hfe_at(s.hfe_min_p, s.hfe_at_a_p, i)),
+        vceo_v=pick("vceo_v", min), ic_max_a=pick("ic_max_a", min), tj_max_c=tj_max,
+        tj_limit_c=tj_max - spec.thermal.tj_derate_c, rth_jc_k_w=pick("rth_jc_k_w", max),
+        rth_ja_k_w=max(_rth_ja(s.rth_ja_k_w_n, s.package), _rth_ja(s.rth_ja_k_w_p, s.package)),
+        package=s.package,
+        soa=lambda vce: np.min(soa.soa_current_limit_a(np.asarray(vce, float)[None, :], bp_v, bp_a,
+                                                       np.array([s.ic_max_a_n, s.ic_max_a_p]), np.array([s.pd_max_w_n, s.pd_max_w_p]),
+                                                       np.array([s.vceo_v_n, s.vceo_v_p])), axis=0),
+    )
+
+
+def _ccs_soa_util(dev: dict, rail_max: np.ndarray, i_a: np.ndarray) -> np.ndarray:
+    """Ic / I_soa,25C of a source transistor at ``Vce = 2 Vs_max`` (its worst point)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(i_a > 0, i_a / np.maximum(dev["soa"](2.0 * rail_max), 1e-12), 0.0)
+
+
+def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray, amb: float) -> np.ndarray:
+    """Free air: junction and SOA of a source transistor; on the sink this is left to the sink limits."""
+    if mount == "heatsink":
+        return np.ones(len(i_a), dtype=bool)
+    p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
+    tj = swing.ccs_junction_temp_c(amb, p_t, dev["rth_ja_k_w"])
+    derate = soa.derating_factor(dev["tj_max_c"], tj)
+    return (tj <= dev["tj_limit_c"]) & (_ccs_soa_util(dev, rail_max, i_a) <= derate)
+
+
+def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray) -> np.ndarray:
+    """Largest Rth_sa per mounting class with the current sources on the sink [row, class].
+
+    The output devices' limits with the sources' heat added to the sink, and
+    the source transistor's own junction and SOA at its case temperature.
+    """
+    amb = spec.thermal.ambient_c
+    extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
+    outputs = _stage_rth(spec, core, sink, extra)
+    p_sink = sink.n_dev * core["p_device_w"].to_numpy(float) + extra
+    p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
+    util = _ccs_soa_util(dev, rail_max, i_a)
+    own = []
+    for c in sink.classes:
+        rth_cs = float(thermal.rth_cs_default_k_w(dev["package"])) if math.isnan(c) else c
+        with np.errstate(divide="ignore", invalid="ignore"):
+            by_tj = thermal.required_rth_sa_k_w(dev["tj_limit_c"], amb, p_t, dev["rth_jc_k_w"], rth_cs, p_sink)
+            tc_soa = dev["tj_max_c"] - util * (dev["tj_max_c"] - 25.0)
+            by_soa = np.where(util <= 1.0, (tc_soa - amb - p_t * rth_cs) / p_sink, -np.inf)
+        own.append(np.minimum(by_tj, by_soa))
+    return np.minimum(outputs, np.stack(own, axis=1))
 
 
 def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, resistor_ok: bool, fams: pd.DataFrame) -> str:
@@ -525,7 +647,8 @@ def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, resistor
         else:
             p = float(swing.bias_resistor_power_w(row["rail_max_v"], vd_min, row["base_peak_v"], r1_max))
             best = float(fams["power_w"].max()) if len(fams) else 0.0
-            parts.append(f"resistor feed would need R1 <= {r1_max:.3g} ohm dissipating {p:.2g} W (largest family rating {best:g} W)")
+            parts.append(f"resistor feed would need R1 <= {r1_max:.3g} ohm dissipating {p:.2g} W, "
+                         f"to be rated {RESISTOR_POWER_MARGIN * p:.2g} W (largest family rating {best:g} W)")
     if mode != "resistor":
         room = row["rail_min_v"] - row["base_peak_v"]
         i_ccs = max(BASE_DRIVE_MARGIN * ib, CCS_MIN_CURRENT_A)
@@ -533,7 +656,7 @@ def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, resistor
             parts.append(f"current source: only {room:.2f} V of compliance left (needs {CCS_COMPLIANCE_V:g} V)")
         else:
             p = float(swing.ccs_transistor_dissipation_w(row["rail_max_v"], i_ccs))
-            parts.append(f"current source: its transistor would dissipate up to {p:.2g} W in free air, more than any small pair in the catalogue may")
+            parts.append(f"current source: its transistor would dissipate up to {p:.2g} W; no small pair in the catalogue holds that in free air, nor on a heatsink this stage can have")
     return "; ".join(parts)
 
 
@@ -597,8 +720,8 @@ def _keys(k: pd.DataFrame, rails: pd.DataFrame, pairs: pd.DataFrame) -> list[str
     pp = pairs["mpn_p"].to_numpy()[k["pair_i"].to_numpy()]
     rv = rails["rail_min_v"].to_numpy(float)[k["rail_i"].to_numpy()]
     return [
-        f"{a}/{b}|{r:09.4f}|{re:.4f}|{f}|{c1}|{c2}|{ri}"
-        for a, b, r, re, f, c1, c2, ri in zip(pn, pp, rv, k["re_ohm"], k["feed"], k["ccs_n_i"], k["ccs_p_i"], k["ref_i"])
+        f"{a}/{b}|{r:09.4f}|{re:.4f}|{f}|{c1}|{c2}|{ri}|{m}"
+        for a, b, r, re, f, c1, c2, ri, m in zip(pn, pp, rv, k["re_ohm"], k["feed"], k["ccs_n_i"], k["ccs_p_i"], k["ref_i"], k["ccs_mount"])
     ]
 
 

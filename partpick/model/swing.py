@@ -373,6 +373,66 @@ def ccs_transistor_dissipation_w(
     return 2.0 * _f(rail_max_v) * _f(i_ccs_a)
 
 
+def ccs_pair_sink_heat_w(
+    rail_max_v: npt.ArrayLike, i_ccs_a: npt.ArrayLike
+) -> FloatOrArray:
+    """Heat the two current sources of one channel put on a shared heatsink.
+
+    ``P = 2 * Vs_max * I_ccs``. The upper source sees ``Vs - v_top`` across
+    it and the lower one ``Vs + v_bottom``; the two base nodes move together
+    (the bias string between them is a few diode drops), so the two voltages
+    add up to at most ``2 * Vs`` at every instant, whatever the signal. Each
+    carries ``I_ccs``. The sum is therefore an upper bound that holds at idle,
+    at full power and with the output stuck at a rail (it neglects only the
+    few volts across the emitter resistors and the bias string).
+
+    Parameters
+    ----------
+    rail_max_v : rail voltage at the maximum DC input [V]
+    i_ccs_a : source current [A]
+
+    Returns
+    -------
+    Heat of both sources together [W].
+
+    Examples
+    --------
+    >>> float(ccs_pair_sink_heat_w(26.5, 0.16))
+    8.48
+    """
+    return 2.0 * _f(rail_max_v) * _f(i_ccs_a)
+
+
+def ccs_reference_current_a(
+    i_ccs_a: npt.ArrayLike,
+    hfe: npt.ArrayLike,
+    i_diode_a: npt.ArrayLike = CCS_REFERENCE_CURRENT_A,
+) -> FloatOrArray:
+    """Current the reference resistor must carry at the minimum rail.
+
+    ``I_ref = I_diode + I_ccs / hFE``: the resistor from the source
+    transistor's base carries the reference's own current plus that base
+    current, so the reference keeps at least ``I_diode`` (2 mA by default,
+    common practice) however much the base draws.
+
+    Parameters
+    ----------
+    i_ccs_a : source current [A]
+    hfe : current gain of the source transistor at that current [1], > 0
+    i_diode_a : current the reference keeps at the least [A]
+
+    Returns
+    -------
+    Reference resistor current [A].
+
+    Examples
+    --------
+    >>> round(float(ccs_reference_current_a(0.16, 40.0)) * 1e3, 2)
+    6.0
+    """
+    return _f(i_diode_a) + _f(i_ccs_a) / _f(hfe)
+
+
 def ccs_emitter_resistor_ohm(
     v_ref_v: npt.ArrayLike, vbe_v: npt.ArrayLike, i_ccs_a: npt.ArrayLike
 ) -> FloatOrArray:

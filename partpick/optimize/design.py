@@ -147,6 +147,7 @@ def check_chosen(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, as
             vref_v=float(ref["vf_v"]) * int(k["ref_per_source"]),
             ref_if_max_a=float(ref["if_max_a"]),
             rth_ja_k_w=_ccs_rth_ja(tr.iloc[int(k["ccs_n_i"])], tr.iloc[int(k["ccs_p_i"])]),
+            mount=str(k["ccs_mount"]),
         )
     return check_selection(
         spec, pool, targets,
@@ -178,7 +179,7 @@ def usable_sources(result: DesignResult) -> set[str]:
 def _ccs_rth_ja(a: pd.Series, b: pd.Series) -> float:
     from partpick.evaluate.stage import _rth_ja
 
-    return min(_rth_ja(a["rth_ja_k_w"], a["package"]), _rth_ja(b["rth_ja_k_w"], b["package"]))
+    return max(_rth_ja(a["rth_ja_k_w"], a["package"]), _rth_ja(b["rth_ja_k_w"], b["package"]))
 
 
 def bom_lines(result: DesignResult) -> list[dict]:

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.optimize.design import DesignResult, infeasible_cause, option_sources, prepare, run, usable_sources
+from partpick.optimize.design import ROLE_ORDER, DesignResult, infeasible_cause, option_sources, prepare, run, usable_sources
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -144,9 +144,11 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
         if mpn in used:
             return WhyAnswer(mpn, roles[0], True, "it is in the optimal design", best.solution.total, best.solution.total)
     reason = _first_rejection(best, mpn, roles)
-    if reason is not None and not _usable(best, mpn):
-        return WhyAnswer(mpn, roles[0], False, reason)
-    role = roles[0]
+    role = _usable_role(best, mpn)
+    if role is None:
+        if reason is not None:
+            return WhyAnswer(mpn, roles[0], False, reason)
+        role = roles[0]
     forced = run(spec, catalog, exclude=exclude, solver=solver, forced={role: mpn})
     opt = best.solution.total if best.feasible else None
     if not forced.feasible:
@@ -155,11 +157,13 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
     return WhyAnswer(mpn, role, False, "feasible but not the cheapest", forced.solution.total, opt)
 
 
-def _usable(result: DesignResult, mpn: str) -> bool:
+def _usable_role(result: DesignResult, mpn: str) -> str | None:
+    """The first role (in BOM order) in which some option of the assembled problem uses ``mpn``."""
     asm = result.assembly
-    if asm is None or asm.problem is None:
-        return False
-    return mpn in usable_sources(result)
+    if asm is None or asm.problem is None or mpn not in usable_sources(result):
+        return None
+    roles = {r for g in asm.problem.groups for o in range(len(asm.problem.groups[g])) for src, _q, r in option_sources(result, g, o) if src == mpn}
+    return min(roles, key=ROLE_ORDER.index) if roles else None
 
 
 def _first_rejection(result: DesignResult, mpn: str, roles: list[str]) -> str | None:

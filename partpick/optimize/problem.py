@@ -57,6 +57,8 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
         lines[key] = (source, value)
         return (key, float(per_board), role)
 
+    too_weak = int(stage.re_options.attrs.get("too_weak", 0))
+    funnel["emitter_resistor"] = {"candidates": len(stage.re_options) + too_weak, "power rating (s.7)": too_weak, "feasible": len(stage.re_options)}
     k = stage.configs
     if k.empty:
         return _fail(funnel, candidates, tables, lines)
@@ -176,11 +178,18 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     hs = hc[hc["feasible"]].reset_index(drop=True)
     # A heatsink fits a configuration when it mounts its package and its rating is
     # at or below what that configuration tolerates with the sink's mounting (s.6, s.13).
+    # Current sources mounted on the sink need their package mounted and two
+    # more places per channel (model s.3 (a'), s.6).
     k_pkg = pairs["package"].to_numpy()[k["pair_i"].to_numpy()]
+    k_src_pkg = k["ccs_package"].to_numpy()
+    k_devices = k["sink_devices"].to_numpy(int)
     class_of = {(-1.0 if math.isnan(c) else c): i for i, c in enumerate(stage.rth_cs_classes)}
     hs_compat = [
-        np.flatnonzero((stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & np.isin(k_pkg, list(mounts)))
-        for r, c, mounts in zip(hs["rth_sa_k_w"], hs["rth_class"], hs["mounts"])
+        np.flatnonzero(
+            (stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & np.isin(k_pkg, list(mounts))
+            & ((k_src_pkg == "") | np.isin(k_src_pkg, list(mounts))) & (k_devices <= n_max)
+        )
+        for r, c, mounts, n_max in zip(hs["rth_sa_k_w"], hs["rth_class"], hs["mounts"], hs["max_devices"])
     ]
     keep = [i for i, c in enumerate(hs_compat) if len(c)]
     hs = hs.iloc[keep].reset_index(drop=True)

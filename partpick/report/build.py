@@ -158,7 +158,10 @@ def build_report(result: DesignResult, catalog_hashes: dict[str, str] | None = N
 
 
 def funnel(result: DesignResult) -> dict:
-    out = {"output_stage": {"candidates": result.stage.considered, **{k: v for k, v in result.stage.funnel.items() if v}, "feasible": int(len(result.stage.configs))}}
+    # Rail x pair x Re configurations; the bias-feed variants of one count once.
+    k = result.stage.configs
+    alive = int(k["core_i"].nunique()) if len(k) else 0
+    out = {"output_stage": {"candidates": result.stage.considered, **{k: v for k, v in result.stage.funnel.items() if v}, "feasible": alive}}
     if result.assembly is not None:
         for role, counts in result.assembly.funnel.items():
             if role != "output stage":

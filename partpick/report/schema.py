@@ -160,6 +160,7 @@ class DesignBlock(_OptionalKeysBlock):
     bias_feed: Literal["resistor", "current_source"]
     bias_current_a: float
     bias_resistor_power_w: float | None  # None with a current source
+    bias_source_mount: Literal["free_air", "heatsink"] | None  # None with a resistor feed
     base_current_peak_a: float
     drive_level_v: float
     t_sink_c: float

@@ -46,7 +46,7 @@ def render_design(term: Terminal, rep: dict) -> None:
         ("P device", f"{d['p_device_max_w']:.1f} W worst case", "Tj reached", f"{d['tj_max_reached_c']:.0f} degC"),
         ("heatsink", f"{d['rth_sa_chosen_k_w']:g} K/W (<= {_f(d['rth_sa_required_k_w'])})", "sink temp", f"{d['t_sink_c']:.0f} degC"),
         ("SOA margin", f"{100 * d['soa_margin']:.0f} %", "loop gain", f"{d['thermal_loop_gain']:.2f} (<= 0.5)"),
-        ("bias feed", f"{d['bias_feed'].replace('_', ' ')}, {1e3 * d['bias_current_a']:.1f} mA", "efficiency", f"{100 * d['efficiency']:.0f} % at full power"),
+        ("bias feed", _feed_text(d), "efficiency", f"{100 * d['efficiency']:.0f} % at full power"),
     ]
     for r in rows:
         grid.add_row(*r)
@@ -187,3 +187,9 @@ def render_risk(term: Terminal, rep: dict) -> None:
         without = f"{r['total_without']:.2f} {cur} with {r['replacement']}" if r["total_without"] is not None else "no design"
         t.add_row(Text(r["mpn"], style=style), r["role"].replace("_", " "), Text(f"{n} supplier{'s' if n != 1 else ''}", style=style), without)
     term.always(t)
+
+
+def _feed_text(d: dict) -> str:
+    """``current source, 147 mA, on sink``: the feed, its current, where its transistors sit."""
+    where = {"heatsink": ", on sink", "free_air": ", free air"}.get(d.get("bias_source_mount") or "", "")
+    return f"{d['bias_feed'].replace('_', ' ')}, {1e3 * d['bias_current_a']:.3g} mA{where}"

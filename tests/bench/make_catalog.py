@@ -62,15 +62,15 @@ BREAK_FACTOR = np.array([1.0, 0.86, 0.68, 0.55])
 
 #: Transistor classes: share of the pairs, package, code in the mpn, kind, parameter ranges, price
 #: range [currency]. ``vceo`` is a choice set [V]; ``ic``, ``pd`` are uniform ranges [A], [W].
-#: ``small`` (TO-92) and ``driver`` (TO-126, Ic <= 1.5 A) pairs are what the bias current
+#: ``small`` (TO-92) and ``driver`` (TO-220, Ic <= 1.5 A) pairs are what the bias current
 #: sources use; their counts come from :func:`small_pair_counts` (share 0 here); ``power``
 #: pairs are output devices split by ``share``, a share of them Darlingtons.
 CLASSES: dict[str, dict] = {
     "TO-92": dict(share=0.0, package="TO-92", code="S", kind="small", vceo=(45, 60, 80, 120, 160, 180),
                   ic=(0.1, 0.8), pd=(0.5, 0.625), pinout="EBC", rth_ja=(200, 250), ft=(100, 300), price=(0.04, 0.15),
                   darlington=0.0),
-    "TO-126 driver": dict(share=0.0, package="TO-126", code="3", kind="driver", vceo=(120, 160, 180), ic=(1.0, 1.5),
-                          pd=(8, 20), pinout="ECB", rth_ja=(100, 100), ft=(60, 150), price=(0.2, 0.45), darlington=0.0),
+    "TO-220 driver": dict(share=0.0, package="TO-220", code="3", kind="driver", vceo=(120, 160, 180), ic=(1.0, 1.5),
+                          pd=(15, 25), pinout="BCE", rth_ja=(62, 62), ft=(60, 150), price=(0.2, 0.45), darlington=0.0),
     "TO-126": dict(share=0.12, package="TO-126", code="1", kind="power", vceo=(60, 80, 100, 120, 160), ic=(2.0, 4.0),
                    pd=(20, 40), pinout="ECB", rth_ja=(100, 100), ft=(3, 60), price=(0.25, 0.5), darlington=0.0),
     "TO-220": dict(share=0.23, package="TO-220", code="2", kind="power", vceo=(60, 80, 100, 120, 140), ic=(4.0, 10.0),
@@ -87,7 +87,7 @@ CLASSES: dict[str, dict] = {
 #: example specs: Vceo [V], Ic [A], Pd [W], hfe at [A], Vce_sat at [A], Vbe at [A], Darlington.
 ANCHORS: dict[str, dict] = {
     "TO-92": dict(vceo=160, ic=0.6, pd=0.625, hfe=100, hfe_at=0.01, sat=0.2, sat_at=0.05, vbe=0.7, vbe_at=0.01, darl=False),
-    "TO-126 driver": dict(vceo=160, ic=1.5, pd=20, hfe=60, hfe_at=0.15, sat=0.5, sat_at=0.5, vbe=0.8, vbe_at=0.15, darl=False),
+    "TO-220 driver": dict(vceo=160, ic=1.5, pd=20, hfe=60, hfe_at=0.15, sat=0.5, sat_at=0.5, vbe=0.8, vbe_at=0.15, darl=False),
     "TO-126": dict(vceo=60, ic=3.0, pd=32, hfe=60, hfe_at=1.0, sat=0.6, sat_at=1.5, vbe=1.0, vbe_at=1.0, darl=False),
     "TO-220": dict(vceo=60, ic=6.0, pd=50, hfe=70, hfe_at=1.0, sat=0.8, sat_at=3.0, vbe=1.1, vbe_at=3.0, darl=False),
     "TO-247": dict(vceo=120, ic=12.0, pd=126, hfe=1000, hfe_at=5.0, sat=2.0, sat_at=6.0, vbe=2.2, vbe_at=5.0, darl=True),
@@ -249,7 +249,7 @@ def _small_numbers(rng: np.random.Generator, kind: str, n: int) -> dict[str, np.
 
 
 def small_pair_counts(pairs: int, small_pairs: int | None = None) -> tuple[int, int]:
-    """TO-92 and TO-126 driver pairs among ``pairs``: a few, growing slowly with the catalogue.
+    """TO-92 and TO-220 driver pairs among ``pairs``: a few, growing slowly with the catalogue.
 
     Default ``3 + 1 %`` TO-92 and ``1 + 0.5 %`` driver pairs (25 pairs: 3 and 1,
     as in the demo; 1,000 pairs: 13 and 6); ``small_pairs`` sets the total
@@ -272,7 +272,7 @@ def transistor_pairs(rng: np.random.Generator, pairs: int, small_pairs: int | No
     to92, drivers = small_pair_counts(pairs, small_pairs)
     share = allocate(pairs - to92 - drivers, np.array([CLASSES[c]["share"] for c in power]))
     counts = [to92, drivers] + list(share)
-    assert names[:2] == ["TO-92", "TO-126 driver"]
+    assert names[:2] == ["TO-92", "TO-220 driver"]
     width = max(3, len(str(pairs)))
     frames = []
     serial = 0
@@ -518,7 +518,7 @@ def write_catalog(
     breaks : smallest and largest number of price breaks per (part, supplier)
     seed : seed of ``numpy.random.default_rng``; the same arguments give the same files
     diodes : bias diodes (2..4), written with one reference LED
-    small_pairs : TO-92 and TO-126 driver pairs among ``pairs`` (default :func:`small_pair_counts`)
+    small_pairs : TO-92 and TO-220 driver pairs among ``pairs`` (default :func:`small_pair_counts`)
 
     Returns
     -------

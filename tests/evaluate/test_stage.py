@@ -12,7 +12,7 @@ from partpick.catalog import load_catalog
 from partpick.evaluate.context import Targets, make_pool
 from partpick.evaluate.stage import evaluate_stage
 from partpick.model import eseries, swing
-from partpick.optimize.design import run
+from partpick.optimize.design import role_parts, run
 from partpick.spec import load_spec, parse_spec
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -37,32 +37,77 @@ def test_ordinary_pair_bias_feed_numbers_by_hand(bench):
     """VT4120N/P on the 2 x 25 W bench spec: the numbers of its bias-feed rejection, by hand.
 
     Hand-worked (model s.2, s.3, s.13), values from the demo catalogue row of
-    VT4120N (hfe_min 30 at 3 A, vbe_on 1.3 V at 5 A):
+    VT4120N (hfe_min 30 at 3 A, vbe_on 1.3 V at 5 A), rails 23.5 / 25.5 V:
       Vp = sqrt(2 * 25 * 8) = 20 V; Ip = 20 / 6.5 = 3.0769 A
       hFE at Ip = 30 * 3 / 3.0769 = 29.25 (above its test current)
       Ib_pk = 3.0769 / 29.25 = 0.10519 A; 1.5 x Ib_pk = 157.8 mA
       Vbe(Ip) = max(1.3, 1.3 + 0.026 ln(3.0769 / 5)) = 1.3 V
-      with Re = 0.1: V_base,pk = 20 + 0.308 + 1.3 = 21.608 V
-      R1 <= (24.5 - 21.608) / 0.15778 = 18.33 ohm
-      P(R1) = ((26.5 - 0.65)^2 + 21.608^2 / 2) / 18.33 = 49.2 W
-      current source: 2 x 26.5 V x 0.15778 A = 8.36 W in its transistor
+      with Re = 0.47: V_base,pk = 20 + 1.446 + 1.3 = 22.746 V
+      R1 <= (23.5 - 22.746) / 0.15778 = 4.78 ohm
+      P(R1) = ((25.5 - 0.65)^2 + 22.746^2 / 2) / 4.78 = 183 W
+      current source: 23.5 - 22.746 = 0.75 V of compliance, below the 1 V it needs
     """
     spec, pool, targets, st = bench
     assert targets.v_peak_v == pytest.approx(20.0)
     assert targets.i_peak_a == pytest.approx(3.0769, abs=1e-4)
     pairs = st.pairs
     pi = int(np.flatnonzero(pairs["mpn_n"] == "VT4120N")[0])
-    rej = st.rejected[(st.rejected["pair_i"] == pi) & np.isclose(st.rejected["re_ohm"], 0.1)]
+    rej = st.rejected[(st.rejected["pair_i"] == pi) & np.isclose(st.rejected["re_ohm"], 0.47)]
     assert len(rej) == 1
     row = rej.iloc[0]
     assert row["rejected_by"] == "bias feed (s.3)"
     assert 1.5 * row["ib_peak_a"] == pytest.approx(0.15778, abs=2e-5)
-    assert row["base_peak_v"] == pytest.approx(21.608, abs=1e-3)
+    assert row["base_peak_v"] == pytest.approx(22.746, abs=1e-3)
     reason = row["reason"]
     assert "158 mA" in reason
-    assert "R1 <= 18.3 ohm" in reason
-    assert "49 W" in reason
-    assert "8.4 W" in reason
+    assert "R1 <= 4.78 ohm" in reason
+    assert "1.8e+02 W" in reason
+    assert "only 0.75 V of compliance" in reason
+    # With a smaller Re the same pair keeps its compliance and a current source serves it.
+    served = st.configs[(st.configs["pair_i"] == pi) & np.isclose(st.configs["re_ohm"], 0.22)]
+    assert set(served["feed"]) == {"current_source"}
+
+
+def test_bench_current_source_on_the_sink_by_hand(catalog):
+    """The bench design: an ordinary pair fed by current sources mounted on its heatsink.
+
+    Hand-worked (model s.3 (a'), s.6, s.13) from the demo catalogue rows:
+      output TWK531/532 (hfe_min 35 at 3 A): hFE at 3.0769 A = 35 * 3 / 3.0769 = 34.125,
+        Ib_pk = 0.09017 A, I_ccs >= 1.5 * Ib_pk = 0.13525 A
+      source VT2218N/P (TO-220, Rth_jc 6.25 K/W, vbe_on 0.8 V at 0.15 A, hfe_min 60 at 0.15 A),
+        red LED reference VL18R3 1.8 V: Vbe at 10 mA = max(0.8, 0.8 + 0.026 ln(0.01 / 0.15)) = 0.8 V
+        R_E <= (1.8 - 0.8) / 0.13525 = 7.39 ohm -> E24 6.8 ohm, I_ccs = 1.0 / 6.8 = 147.06 mA
+        reference resistor current 2 mA + 147.06 mA / 60 = 4.451 mA
+        R_ref <= (23.5 - 1.8) / 4.451 mA = 4875 ohm -> E24 4.7 kohm; LED at 25.5 V: 23.7 / 4700 = 5.04 mA
+      each source dissipates up to 2 x 25.5 x 0.14706 = 7.50 W; both together put 7.50 W on the sink
+      sink AHX-200-1.0 (1.0 K/W, kit 0.35 K/W): T_sink = 40 + 1.0 x (2 P_dev + 7.50)
+      source junction = T_sink + 7.50 x (6.25 + 0.35); limit 150 - 25 = 125 degC
+    """
+    result = run(load_spec(BENCH), catalog)
+    assert result.feasible
+    d = result.check.design
+    parts = {(r["role"], r["line"]) for r in role_parts(result)}
+    assert ("output_npn", "TWK531") in parts and ("bias_source_transistor", "VT2218N") in parts
+    assert ("bias_source_reference", "VL18R3") in parts and ("heatsink", "AHX-200-1.0") in parts
+    assert d["bias_feed"] == "current_source" and d["bias_source_mount"] == "heatsink"
+    assert d["bias_current_a"] == pytest.approx(1.0 / 6.8, rel=1e-9)
+    assert d["base_current_peak_a"] == pytest.approx(0.09017, abs=1e-5)
+    p_t = 2 * 25.5 * (1.0 / 6.8)
+    assert p_t == pytest.approx(7.50, abs=5e-3)
+    t_sink = 40.0 + 1.0 * (2 * d["p_device_max_w"] + p_t)
+    assert d["t_sink_c"] == pytest.approx(t_sink, abs=1e-9)
+    tj_source = t_sink + p_t * (6.25 + 0.35)
+    margins = {m.name: m.value for m in result.check.margins["bias_source_transistor"]}
+    assert margins["VT2218N junction temperature"] == pytest.approx(125.0 - tj_source, abs=1e-9)
+    assert margins["VT2218N junction temperature"] >= 0
+    assert margins["current at the peak"] == pytest.approx(1.0 / 6.8 - 0.13525, abs=2e-5)
+    values = sorted(v for (role, line) in parts if role == "bias_source_resistor" for v in [line])
+    assert values == ["AR-MO24-1W@4.7k", "AR-MO24-1W@6.8"]
+    ref = {m.name: m.value for m in result.check.margins["bias_source_reference"]}
+    assert ref["current rating"] == pytest.approx(0.020 - 23.7 / 4700, abs=1e-9)
+    # The sink holds the two output devices and the two sources of the channel.
+    sink = {m.name: m.value for m in result.check.margins["heatsink"]}
+    assert sink["device count"] == 0.0
 
 
 def test_resistor_feed_against_current_source_on_the_same_stage():
@@ -123,7 +168,7 @@ def test_rejections_name_the_first_failing_constraint_with_numbers(bench):
 
 
 def test_higher_rail_removes_headroom_rejections(catalog):
-    text = BENCH.read_text().replace("v_min = 24.5", "v_min = 20.0")
+    text = BENCH.read_text().replace("v_min = 23.5", "v_min = 20.0")
     low = parse_spec(text)
     pool = make_pool(low, catalog)
     st_low = evaluate_stage(low, pool, Targets.from_spec(low))

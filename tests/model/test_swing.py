@@ -133,3 +133,32 @@ def test_ccs_junction_temp_float_and_array():
     assert sw.ccs_junction_temp_c(40.0, 0.5, 200.0) == pytest.approx(140.0)
     np.testing.assert_allclose(sw.ccs_junction_temp_c(25.0, [0.1, 1.0], [200.0, 62.0]),
                                [45.0, 87.0])
+
+
+def test_ccs_pair_sink_heat_float_and_array():
+    # Hand-worked: the upper source sees Vs - v, the lower Vs + v; at v = 0, +Vs and -Vs
+    # alike the two add to 2 * Vs, so 2 * 25.5 V * 0.147 A = 7.497 W on the sink.
+    assert sw.ccs_pair_sink_heat_w(25.5, 0.147) == pytest.approx(7.497)
+    np.testing.assert_allclose(sw.ccs_pair_sink_heat_w([10.0, 20.0], [0.1, 0.05]), [2.0, 2.0])
+
+
+def test_ccs_pair_sink_heat_bounds_the_sum_over_a_cycle():
+    # Independent route: sample a full cycle of the output; each source carries I and
+    # sees (rail - its base node); the two base nodes differ by the bias string.
+    vs, i, vp, string = 25.5, 0.147, 20.0, 1.4
+    v = vp * np.sin(np.linspace(0.0, 2 * np.pi, 721))
+    top = (vs - (v + string / 2)) * i
+    bottom = ((v - string / 2) + vs) * i
+    assert np.all(top + bottom <= sw.ccs_pair_sink_heat_w(vs, i) + 1e-12)
+    # ... and neither source alone exceeds the per-transistor bound 2 * Vs * I (model s.3).
+    assert max(top.max(), bottom.max()) <= sw.ccs_transistor_dissipation_w(vs, i)
+    # the mean over the cycle is the idle figure, (2 Vs - string) * I
+    assert np.mean((top + bottom)[:-1]) == pytest.approx((2 * vs - string) * i)
+
+
+def test_ccs_reference_current_float_and_array():
+    # Hand-worked: 2 mA for the reference plus a 147 mA source's base current at hFE 60:
+    # 2 mA + 147 mA / 60 = 4.45 mA.
+    assert sw.ccs_reference_current_a(0.147, 60.0) == pytest.approx(0.00445)
+    np.testing.assert_allclose(sw.ccs_reference_current_a([0.01, 0.1], [100.0, 50.0], 0.001),
+                               [0.0011, 0.003])

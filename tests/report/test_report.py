@@ -304,3 +304,31 @@ def test_demo_terminal_output_at_80_columns_matches_the_snapshot():
         SNAPSHOT.parent.mkdir(parents=True, exist_ok=True)
         SNAPSHOT.write_text(text, encoding="utf-8", newline="")
     assert text == SNAPSHOT.read_text(encoding="utf-8")
+
+
+@pytest.mark.parametrize("spec_text", [
+    None,  # the bench example as shipped
+    "f_high_hz = 900000.0",  # a slew-rate heavy variant that once counted more feasible than candidates
+    "power_w = 400.0",  # infeasible: no emitter resistor is rated for it, so no stage is formed
+])
+def test_funnel_counts_add_up(spec_text, demo_catalog):
+    """Every funnel row: candidates = sum of what each constraint removed + feasible."""
+    from partpick.optimize.design import run
+    from partpick.report.build import funnel
+    from partpick.spec import parse_spec
+
+    text = next(e for e in EXAMPLES if e.stem.startswith("bench")).read_text()
+    if spec_text is not None:
+        key = spec_text.split(" = ")[0]
+        text = re.sub(rf"^{key} = .*$", spec_text, text, flags=re.M)
+    result = run(parse_spec(text), demo_catalog)
+    rows = funnel(result)
+    if spec_text == "power_w = 400.0":
+        assert not result.feasible
+        assert rows["emitter_resistor"]["feasible"] == 0 < rows["emitter_resistor"]["power rating (s.7)"]
+        assert rows["output_stage"]["candidates"] == 0
+    else:
+        assert rows["output_stage"]["candidates"] > rows["output_stage"]["feasible"] > 0
+    for role, counts in rows.items():
+        removed = sum(v for k, v in counts.items() if k not in ("candidates", "feasible"))
+        assert counts["candidates"] == removed + counts["feasible"], (role, counts)
