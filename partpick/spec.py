@@ -26,7 +26,7 @@ else:  # pragma: no cover
 class _Section(BaseModel):
     # strict: TOML values are typed, so "yes" for a bool or "10" for a number is an
     # error, not a silent conversion (arrays are still accepted for the tuple keys).
-    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
 
 class OutputSpec(_Section):
@@ -95,7 +95,7 @@ class OrderSpec(_Section):
 class Spec(BaseModel):
     """One amplifier to design: every key of the spec file, defaults filled in."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
     name: str = "unnamed design"
     output: OutputSpec
