@@ -162,7 +162,8 @@ def _problems(text: str, label: str, exc: ValidationError) -> list[Problem]:
             loc = [*loc, key_match.group(1)]
             msg = key_match.group(2)
         where = f"[{loc[0]}] {'.'.join(loc[1:])}" if len(loc) > 1 else ".".join(loc)
-        problems.append(Problem(label, _key_line(text, loc), where, msg))
+        keys = [part for part in loc if not part.isdigit()]  # an array item is on its key's line
+        problems.append(Problem(label, _key_line(text, keys), where, msg))
     return problems
 
 
