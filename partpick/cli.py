@@ -1,7 +1,8 @@
 """Command line: argument parsing only; the work is done by the layers below.
 
 Exit codes: 0 success, 2 bad command line, 3 invalid input files (every
-problem listed), 4 no feasible design. Heavy modules (the solver, plotting)
+problem listed), 4 no feasible design; 1 a solver fault or internal error (one
+message, no traceback), 130 interrupted. Heavy modules (the solver, plotting)
 are imported inside the commands that need them, so ``--help`` and
 ``catalog-check`` start fast.
 """
