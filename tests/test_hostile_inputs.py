@@ -17,7 +17,7 @@ import pytest
 from conftest import DEMO_CATALOG, EXAMPLES
 from partpick.cli import main
 
-DESK = next(e for e in EXAMPLES if e.name == "desk_2ch_12v_single.toml")
+MODULE = next(e for e in EXAMPLES if e.name == "module_60w_4ohm_reactive.toml")
 OP_ROW = "OMC118,Ossely Microcircuits,DIP-8,1,6,36,1.5,2,0.5,1,0.025,6,0"
 TR_ROW = "VT1360N,Vellmark Semiconductor,npn,VT1360P,TO-126,60,3,32,150,3.9,60,1,0.6,1.5,1,1,3,,ECB,100"
 OFFER = "VT1360N,Tessaly Electronics,1,0.323,4000,1"
@@ -29,7 +29,7 @@ def _plain(monkeypatch):
     monkeypatch.delenv("PARTPICK_DEBUG", raising=False)
 
 
-def design(catalog: Path, spec: Path = DESK, quiet: bool = True) -> tuple[int, str, list[str]]:
+def design(catalog: Path, spec: Path = MODULE, quiet: bool = True) -> tuple[int, str, list[str]]:
     """``partpick design`` through the command line: (exit code, stdout, stderr lines)."""
     out, err = io.StringIO(), io.StringIO()
     with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
@@ -40,7 +40,7 @@ def design(catalog: Path, spec: Path = DESK, quiet: bool = True) -> tuple[int, s
 
 @pytest.fixture(scope="module")
 def clean_total() -> str:
-    """The printed total of the desk example on the clean demo catalogue."""
+    """The printed total of the module example on the clean demo catalogue."""
     with pytest.MonkeyPatch.context() as mp:
         mp.setenv("COLUMNS", "250")
         code, out, _ = design(DEMO_CATALOG)
@@ -48,7 +48,7 @@ def clean_total() -> str:
     return out.strip()
 
 
-def refused(catalog: Path, spec: Path = DESK) -> list[str]:
+def refused(catalog: Path, spec: Path = MODULE) -> list[str]:
     """The problem lines of a run that must end with exit 3 (the count line dropped)."""
     code, _, err = design(catalog, spec)
     assert code == 3, err
@@ -139,8 +139,8 @@ def test_crlf_and_byte_order_marks_everywhere_give_the_same_design(catalog_copy,
     for path in catalog_copy.path.glob("*.csv"):
         text = path.read_text(encoding="utf-8")
         path.write_bytes(b"\xef\xbb\xbf" + text.replace("\n", "\r\n").encode("utf-8"))
-    spec = tmp_path / "desk.toml"
-    spec.write_bytes(b"\xef\xbb\xbf" + DESK.read_text(encoding="utf-8").replace("\n", "\r\n").encode("utf-8"))
+    spec = tmp_path / "module.toml"
+    spec.write_bytes(b"\xef\xbb\xbf" + MODULE.read_text(encoding="utf-8").replace("\n", "\r\n").encode("utf-8"))
     code, out, err = design(catalog_copy.path, spec)
     assert code == 0, err
     assert out.strip() == clean_total
@@ -160,12 +160,12 @@ def test_names_with_terminal_markup_are_printed_as_written(catalog_copy, tmp_pat
     text = catalog_copy.text("suppliers.csv")
     catalog_copy.write("suppliers.csv", text.replace("Tessaly Electronics", "[/]Tessaly [bold]Electronics"))
     catalog_copy.write("offers.csv", catalog_copy.text("offers.csv").replace("Tessaly Electronics", "[/]Tessaly [bold]Electronics"))
-    spec = tmp_path / "desk.toml"
-    spec.write_text(DESK.read_text(encoding="utf-8").replace('name = "', 'name = "[/] [red]'), encoding="utf-8")
+    spec = tmp_path / "module.toml"
+    spec.write_text(MODULE.read_text(encoding="utf-8").replace('name = "', 'name = "[/] [red]'), encoding="utf-8")
     code, out, err = design(catalog_copy.path, spec, quiet=False)
     assert code == 0, err
     assert "[/]Tessaly [bold]Electronics" in out
-    assert "[/] [red]Desk amplifier" in out
+    assert "[/] [red]Power module" in out
     assert clean_total in out
 
 
@@ -190,7 +190,7 @@ def test_empty_spec_names_each_missing_section(tmp_path):
 
 @pytest.mark.parametrize("value", ["nan", "inf", "-inf"])
 def test_spec_number_must_be_finite(tmp_path, value):
-    spec = _spec(tmp_path, DESK.read_text(encoding="utf-8").replace("power_w = 2.0", f"power_w = {value}"))
+    spec = _spec(tmp_path, MODULE.read_text(encoding="utf-8").replace("power_w = 60.0", f"power_w = {value}"))
     line = spec.read_text(encoding="utf-8").splitlines().index(f"power_w = {value}") + 1
     assert refused(DEMO_CATALOG, spec) == [f"{spec}:{line}: [output] power_w: Input should be a finite number"]
 

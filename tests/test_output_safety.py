@@ -23,7 +23,7 @@ from partpick.report import files
 from partpick.report.bom_csv import bom_csv_text
 from solver_fakes import CRASHES, KILLED, STOPPED_WITH_DESIGN, STOPPED_WITHOUT_DESIGN, fake_cbc, slow
 
-DESK = next(e for e in EXAMPLES if e.name == "desk_2ch_12v_single.toml")
+MODULE = next(e for e in EXAMPLES if e.name == "module_60w_4ohm_reactive.toml")
 
 
 @pytest.fixture(autouse=True)
@@ -32,7 +32,7 @@ def _plain(monkeypatch):
     monkeypatch.delenv("PARTPICK_DEBUG", raising=False)
 
 
-def design(capsys, out: Path, *extra: str, spec: Path = DESK, catalog: Path = DEMO_CATALOG) -> tuple[int, str, str]:
+def design(capsys, out: Path, *extra: str, spec: Path = MODULE, catalog: Path = DEMO_CATALOG) -> tuple[int, str, str]:
     """``partpick design`` writing report.json and order.csv into ``out``; (exit code, stdout, stderr)."""
     out.mkdir(parents=True, exist_ok=True)
     code = main(["--no-color", "design", str(spec), "--catalog", str(catalog),
@@ -134,7 +134,7 @@ def test_ctrl_c_while_the_solver_runs_leaves_no_output_and_no_traceback(tmp_path
     cbc = fake_cbc(tmp_path, slow(marker))
     code = (f"import sys, pulp; pulp.PULP_CBC_CMD.pulp_cbc_path = {str(cbc)!r}; "
             "from partpick.cli import main; sys.exit(main(sys.argv[1:]))")
-    args = ["--no-color", "design", str(DESK), "--catalog", str(DEMO_CATALOG),
+    args = ["--no-color", "design", str(MODULE), "--catalog", str(DEMO_CATALOG),
             "--json", str(out / "report.json"), "--bom", str(out / "order.csv")]
     env = {k: v for k, v in os.environ.items() if k != "PARTPICK_DEBUG"}
     proc = subprocess.Popen([sys.executable, "-c", code, *args], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
@@ -206,7 +206,7 @@ def test_time_limit_without_a_design_is_a_clear_error_not_infeasibility(capsys, 
 @pytest.mark.parametrize("value", ["0", "-1", "nan", "inf", "soon"])
 def test_time_limit_must_be_a_positive_number(capsys, value):
     with pytest.raises(SystemExit) as info:
-        main(["design", str(DESK), "--time-limit", value])
+        main(["design", str(MODULE), "--time-limit", value])
     assert info.value.code == 2
     assert "--time-limit" in capsys.readouterr().err
 
@@ -218,7 +218,7 @@ def test_report_over_the_previous_report_is_refused(capsys, tmp_path):
     code, _, _ = design(capsys, tmp_path / "first")
     previous = tmp_path / "first" / "report.json"
     before = previous.read_bytes()
-    code = main(["--no-color", "design", str(DESK), "--catalog", str(DEMO_CATALOG),
+    code = main(["--no-color", "design", str(MODULE), "--catalog", str(DEMO_CATALOG),
                  "--previous", str(previous), "--json", str(previous)])
     assert code == 2
     assert "refusing to write" in capsys.readouterr().err
@@ -227,7 +227,7 @@ def test_report_over_the_previous_report_is_refused(capsys, tmp_path):
 
 def test_report_and_order_into_one_file_is_refused(capsys, tmp_path):
     target = tmp_path / "both.txt"
-    code = main(["--no-color", "design", str(DESK), "--catalog", str(DEMO_CATALOG),
+    code = main(["--no-color", "design", str(MODULE), "--catalog", str(DEMO_CATALOG),
                  "--json", str(target), "--bom", str(target)])
     assert code == 2
     assert "same file" in capsys.readouterr().err
@@ -236,7 +236,7 @@ def test_report_and_order_into_one_file_is_refused(capsys, tmp_path):
 
 def test_pictures_into_the_catalogue_folder_are_refused(capsys, catalog_copy):
     before = {p.name: p.read_bytes() for p in catalog_copy.path.iterdir()}
-    code = main(["--no-color", "design", str(DESK), "--catalog", str(catalog_copy.path),
+    code = main(["--no-color", "design", str(MODULE), "--catalog", str(catalog_copy.path),
                  "--plots", str(catalog_copy.path / "pictures")])
     assert code == 2
     assert "refusing to write" in capsys.readouterr().err
@@ -247,7 +247,7 @@ def test_output_through_a_link_to_an_input_is_refused(capsys, catalog_copy, tmp_
     link = tmp_path / "innocent.csv"
     link.symlink_to(catalog_copy.file("offers.csv"))
     before = catalog_copy.file("offers.csv").read_bytes()
-    code = main(["--no-color", "design", str(DESK), "--catalog", str(catalog_copy.path), "--bom", str(link)])
+    code = main(["--no-color", "design", str(MODULE), "--catalog", str(catalog_copy.path), "--bom", str(link)])
     assert code == 2
     assert "refusing to write" in capsys.readouterr().err
     assert catalog_copy.file("offers.csv").read_bytes() == before
