@@ -1,7 +1,8 @@
 """Command line: argument parsing only; the work is done by the layers below.
 
 Exit codes: 0 success, 2 bad command line, 3 invalid input files (every
-problem listed), 4 no feasible design. Heavy modules (the solver, plotting)
+problem listed), 4 no feasible design; 1 a solver fault or internal error (one
+message, no traceback), 130 interrupted. Heavy modules (the solver, plotting)
 are imported inside the commands that need them, so ``--help`` and
 ``catalog-check`` start fast.
 """
@@ -9,6 +10,7 @@ are imported inside the commands that need them, so ``--help`` and
 from __future__ import annotations
 
 import argparse
+import math
 import os
 import sys
 from pathlib import Path
@@ -85,11 +87,27 @@ def _design_args(d: argparse.ArgumentParser) -> None:
     d.add_argument("--exclude", nargs="+", default=[], metavar="MPN")
     d.add_argument("--previous", metavar="REPORT.json", help="re-design keeping as much of a previous report as possible")
     d.add_argument("--keep-footprints", action="store_true", help="with --previous: replacements keep package and pinout")
-    d.add_argument("--change-weight", type=float, metavar="COST", help="with --previous: trade one changed role for this much cost (default: fewest changes first)")
+    d.add_argument("--change-weight", type=_number(0.0, strict=False), metavar="COST", help="with --previous: trade one changed role for this much cost (default: fewest changes first)")
     d.add_argument("--risk", action="store_true", help="report single-source lines and the best design without each")
-    d.add_argument("--time-limit", type=float, metavar="S", help="solver time limit in seconds")
+    d.add_argument("--time-limit", type=_number(0.0, strict=True), metavar="S",
+                   help="solver time limit in seconds; a design found by then is reported as not proven optimal")
     d.add_argument("--alternatives", type=int, default=0, metavar="N")
     d.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
+
+
+def _number(low: float, strict: bool):
+    """An argparse type: a finite number above ``low`` (``strict``) or at least ``low``."""
+
+    def parse(text: str) -> float:
+        try:
+            x = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"'{text}' is not a number") from None
+        if not math.isfinite(x) or x < low or (strict and x == low):
+            raise argparse.ArgumentTypeError(f"'{text}' must be a finite number {'above' if strict else 'of at least'} {low:g}")
+        return x
+
+    return parse
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -112,7 +130,7 @@ def main(argv: list[str] | None = None) -> int:
         console.error(str(exc))
         return 1
     except KeyboardInterrupt:
-        console.error("interrupted; no output file was written")
+        console.error("interrupted; output files are written whole or not at all, none is left partial")
         return 130
     except Exception as exc:  # noqa: BLE001 - the user sees a message, not a traceback
         if os.environ.get("PARTPICK_DEBUG"):

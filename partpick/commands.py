@@ -9,7 +9,8 @@ from pathlib import Path
 
 from partpick.catalog import Catalog, default_catalog_dir, demo_catalog_dir, load_catalog
 from partpick.errors import UsageError
-from partpick.report.console import Terminal
+from partpick.report.console import Terminal, labelled
+from partpick.report.files import write_all
 from partpick.spec import Spec, load_spec
 
 EXIT_OK, EXIT_INFEASIBLE = 0, 4
@@ -46,12 +47,7 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         from partpick.optimize.revise import load_previous
 
         previous = load_previous(args.previous)
-    inputs = _input_paths(args.spec, catalog)
-    for out in (args.json, args.bom):
-        if out:
-            _refuse_input(out, inputs)
-    if args.plots:
-        _refuse_plots_folder(args.plots, inputs)
+    _refuse_outputs(args, catalog)
     revision = None
     if previous is not None:
         from partpick.optimize.revise import redesign
@@ -71,10 +67,7 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         if not term.quiet:
             term.print("No feasible design; searching what would make it feasible ...")
         rep["suggestions"] = suggestions(result.spec, catalog, tuple(args.exclude))
-        if args.json:
-            write_json(args.json, rep)
-        if args.plots:
-            write_plots(term, result, args.plots, rep)
+        write_outputs(term, args, result, rep)
         render_infeasible(term, rep)
         return EXIT_INFEASIBLE
     from partpick.optimize.explain import compare_feeds
@@ -88,14 +81,7 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         from partpick.optimize.revise import stock_risk
 
         rep["stock_risk"] = [vars(r) for r in stock_risk(result, args.solver)]
-    if args.json:
-        write_json(args.json, rep)
-    if args.bom:
-        from partpick.report.bom_csv import write_bom_csv
-
-        write_bom_csv(args.bom, rep)
-    if args.plots:
-        write_plots(term, result, args.plots, rep)
+    write_outputs(term, args, result, rep)
     if term.quiet:
         term.always(f"{rep['totals']['total']:.2f} {rep['totals']['currency']}")
     else:
@@ -138,16 +124,17 @@ def run_evaluate(args: argparse.Namespace, term: Terminal) -> int:
     spec = load_spec(args.spec)
     catalog = _catalog(args.catalog)
     _check_known(catalog, forced.values())
+    if args.json:
+        _refuse_input(args.json, _input_paths(args.spec, catalog))
     result = run(spec, catalog, forced=forced, spec_label=args.spec)
     rep = build_report(result, catalog.file_sha256, "cbc")
     if args.json:
-        _refuse_input(args.json, _input_paths(args.spec, catalog))
-        write_json(args.json, rep)
+        write_all({Path(args.json): report_json(rep)})
     if result.feasible:
         term.print("Evaluated selection: " + ", ".join(f"{r}={m}" for r, m in forced.items()))
         render_design(term, rep)
         return EXIT_OK
-    term.always("[bold red]The selection is not feasible.[/]")
+    term.always(labelled("The selection is not feasible.", "bold red"))
     for role, mpn in forced.items():
         ans = why(spec, catalog, mpn)
         term.always(f"- {role} {mpn}: {ans.reason}")
@@ -178,6 +165,7 @@ def run_sweep(args: argparse.Namespace, term: Terminal) -> int:
     """The optimal design at each point of a power, rail or ambient range."""
     from rich import box
     from rich.table import Table
+    from rich.text import Text
 
     from partpick.optimize.sweep import QUANTITIES, parse_range, plot_sweep, sweep
 
@@ -197,7 +185,7 @@ def run_sweep(args: argparse.Namespace, term: Terminal) -> int:
         if p.feasible:
             t.add_row(f"{p.value:g}", f"{p.total:.2f}", p.output_pair, p.driver, p.heatsink, f"{p.tightest} {100 * p.tightest_fraction:.0f} %")
         else:
-            t.add_row(f"{p.value:g}", "[red]infeasible[/]", "", "", "", "")
+            t.add_row(f"{p.value:g}", Text("infeasible", style="red"), "", "", "", "")
     term.always(t)
     if args.plot:
         plot_sweep(points, quantity, args.plot, cur)
@@ -216,10 +204,24 @@ def _check_known(catalog: Catalog, mpns) -> None:
         raise InputError(bad)
 
 
-def _input_paths(spec_path: str, catalog: Catalog) -> set[Path]:
+def _input_paths(spec_path: str, catalog: Catalog, *others: str | None) -> set[Path]:
+    """Every input of a run: the spec, the catalogue folder and its files, and ``others`` given."""
     paths = {Path(spec_path).resolve(), Path(catalog.folder).resolve()}
     paths.update((Path(catalog.folder) / name).resolve() for name in catalog.file_sha256)
+    paths.update(Path(o).resolve() for o in others if o)
     return paths
+
+
+def _refuse_outputs(args: argparse.Namespace, catalog: Catalog) -> None:
+    """A design run's outputs must not overwrite an input, go into the catalogue, or clash."""
+    inputs = _input_paths(args.spec, catalog, args.previous)
+    files = [out for out in (args.json, args.bom) if out]
+    for out in files:
+        _refuse_input(out, inputs)
+    if len(files) == 2 and Path(files[0]).resolve() == Path(files[1]).resolve():
+        raise UsageError(f"refusing to write the report and the order into the same file {files[0]}")
+    if args.plots:
+        _refuse_plots_folder(args.plots, inputs)
 
 
 def _refuse_input(out: str, inputs: set[Path]) -> None:
@@ -235,18 +237,32 @@ def _refuse_plots_folder(folder: str, inputs: set[Path]) -> None:
         raise UsageError(f"refusing to write pictures into {folder}: it is a file, not a folder")
 
 
-def write_plots(term: Terminal, result, folder: str, rep: dict) -> None:
-    """The SOA and thermal pictures of a design, or the funnel of an infeasible one."""
-    from partpick.report.plots import write_plots as write_pictures
+def write_outputs(term: Terminal, args: argparse.Namespace, result, rep: dict) -> None:
+    """Write the report, the order CSV and the pictures a design run asked for, all or nothing.
 
-    paths = write_pictures(result, folder, rep)
-    term.print(f"wrote {len(paths)} pictures to {folder}: {', '.join(p.name for p in paths)}")
+    The order CSV is written for a feasible design only.
+    """
+    files: dict[Path, bytes] = {}
+    if args.json:
+        files[Path(args.json)] = report_json(rep)
+    if args.bom and result.feasible:
+        from partpick.report.bom_csv import bom_csv_text
+
+        files[Path(args.bom)] = bom_csv_text(rep).encode("utf-8")
+    pictures: dict[str, bytes] = {}
+    if args.plots:
+        from partpick.report.plots import render_plots
+
+        pictures = render_plots(result, rep)
+        files.update({Path(args.plots) / name: data for name, data in pictures.items()})
+    write_all(files)
+    if pictures:
+        term.print(f"wrote {len(pictures)} pictures to {args.plots}: {', '.join(pictures)}")
 
 
-def write_json(path: str, rep: dict) -> None:
-    from partpick.report.files import atomic_write_text
-
-    atomic_write_text(path, json.dumps(rep, indent=2, ensure_ascii=False) + "\n")
+def report_json(rep: dict) -> bytes:
+    """The JSON report as written: UTF-8, two-space indent, keys in the report's order."""
+    return (json.dumps(rep, indent=2, ensure_ascii=False) + "\n").encode("utf-8")
 
 
 __all__ = ["Spec", "run_demo", "run_design", "run_evaluate", "run_why"]

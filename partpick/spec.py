@@ -26,7 +26,7 @@ else:  # pragma: no cover
 class _Section(BaseModel):
     # strict: TOML values are typed, so "yes" for a bool or "10" for a number is an
     # error, not a silent conversion (arrays are still accepted for the tuple keys).
-    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
 
 class OutputSpec(_Section):
@@ -95,7 +95,7 @@ class OrderSpec(_Section):
 class Spec(BaseModel):
     """One amplifier to design: every key of the spec file, defaults filled in."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
     name: str = "unnamed design"
     output: OutputSpec
@@ -162,7 +162,8 @@ def _problems(text: str, label: str, exc: ValidationError) -> list[Problem]:
             loc = [*loc, key_match.group(1)]
             msg = key_match.group(2)
         where = f"[{loc[0]}] {'.'.join(loc[1:])}" if len(loc) > 1 else ".".join(loc)
-        problems.append(Problem(label, _key_line(text, loc), where, msg))
+        keys = [part for part in loc if not part.isdigit()]  # an array item is on its key's line
+        problems.append(Problem(label, _key_line(text, keys), where, msg))
     return problems
 
 

@@ -15,6 +15,21 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO_CATALOG = ROOT / "catalog"
 EXAMPLES = sorted((ROOT / "examples").glob("*.toml"))
 
+#: Characters that make a spreadsheet read a cell as a formula (OWASP, "CSV
+#: Injection", https://owasp.org/www-community/attacks/CSV_Injection: cells
+#: starting with =, +, -, @, tab or carriage return are to be prefixed with a
+#: single quote).
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def is_number(cell: str) -> bool:
+    """A CSV cell a spreadsheet reads as a number (not text, so not a formula either)."""
+    try:
+        float(cell)
+    except ValueError:
+        return False
+    return True
+
 
 def csv_records(path: Path) -> list[list[str]]:
     """Data records of a catalogue file read with the csv module alone (header dropped).

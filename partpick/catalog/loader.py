@@ -8,6 +8,7 @@ carrying every problem of every file at once.
 
 from __future__ import annotations
 
+import codecs
 import csv
 import hashlib
 import math
@@ -15,6 +16,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
+from typing import BinaryIO
 
 import pandas as pd
 from pydantic import ValidationError
@@ -24,9 +26,12 @@ from partpick.errors import InputError, Problem
 
 #: Largest catalogue file read [bytes]; larger files are refused, not loaded.
 MAX_FILE_BYTES = 256 * 1024 * 1024
-#: Most rows read from one file; a larger file is refused with a message, not
-#: loaded until memory runs out (a medium-sized parametric export has ~20,000).
-MAX_ROWS = 500_000
+#: Most lines read from one file (comments included); a longer file is refused
+#: with a message before any row is parsed, not loaded until memory runs out (a
+#: medium-sized parametric export has ~20,000 rows).
+MAX_LINES = 500_000
+#: Bytes that end a line for ``str.splitlines`` once UTF-8 encoded (CR LF counts once).
+_LINE_ENDS = (b"\n", b"\r", b"\x0b", b"\x0c", b"\x1c", b"\x1d", b"\x1e", b"\xc2\x85", b"\xe2\x80\xa8", b"\xe2\x80\xa9")
 #: Largest cell [characters].
 MAX_CELL_CHARS = 4096
 
@@ -116,7 +121,22 @@ def load_catalog(folder: str | Path) -> Catalog:
 # --------------------------------------------------------------------------- reading
 
 
-def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple[int, Row]], list[Problem], str]:
+class _Unreadable(Exception):
+    """A whole-file problem met while streaming a file (not UTF-8 text, a NUL)."""
+
+    def __init__(self, line: int, reason: str):
+        super().__init__(reason)
+        self.line, self.reason = line, reason
+
+
+def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple], list[Problem], str]:
+    """Rows of one file (tuples: line, then the model's fields), its problems and its sha256.
+
+    The file is never held whole: a first pass hashes it and counts its lines
+    in fixed-size chunks, and a file of more than :data:`MAX_LINES` lines is
+    refused there, before any row is parsed; the second pass parses one line
+    at a time. Memory stays bounded whatever the file's size.
+    """
     label = str(path)
     if not path.is_file():
         return [], [Problem(label, 0, "", "file is missing")], ""
@@ -124,58 +144,103 @@ def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple[int, Row]], lis
     if size > MAX_FILE_BYTES:
         reason = f"file is {size / 2**20:.0f} MiB; partpick reads at most {MAX_FILE_BYTES // 2**20} MiB"
         return [], [Problem(label, 0, "", reason)], ""
-    raw = path.read_bytes()
-    digest = hashlib.sha256(raw).hexdigest()
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        return [], [Problem(label, line, "", f"not UTF-8 text (byte 0x{raw[exc.start]:02x})")], digest
-    if "\x00" in text:
-        line = text[: text.index("\x00")].count("\n") + 1
-        return [], [Problem(label, line, "", "contains a NUL character: not a text file")], digest
-    if text.count("\n") > 2 * MAX_ROWS:  # refuse before parsing: comments cannot explain this many lines
-        reason = f"about {text.count(chr(10))} lines; partpick reads at most {MAX_ROWS} rows per file (split the catalogue or filter it)"
+    digest, lines = _fingerprint(path)
+    if lines > MAX_LINES:
+        reason = (f"file has {lines} lines; partpick reads at most {MAX_LINES} lines per file "
+                  "(split the catalogue or filter it)")
         return [], [Problem(label, 0, "", reason)], digest
-    records = list(_records(text))
-    if len(records) > MAX_ROWS + 1:
-        reason = f"{len(records) - 1} rows; partpick reads at most {MAX_ROWS} rows per file (split the catalogue or filter it)"
-        return [], [Problem(label, 0, "", reason)], digest
-    if not records:
-        return [], [Problem(label, 0, "", "file is empty: a header row is required")], digest
-    header_line, header = records[0]
-    if isinstance(header, str):
-        return [], [Problem(label, header_line, "", header)], digest
-    header = [h.strip() for h in header]
-    problems = _header_problems(label, header_line, header, model)
-    if problems:
-        return [], problems, digest
-    rows: list[tuple[int, Row]] = []
-    for line, cells in records[1:]:
-        if isinstance(cells, str):
-            problems.append(Problem(label, line, "", cells))
-            continue
-        if len(cells) != len(header):
-            problems.append(
-                Problem(label, line, "", f"has {len(cells)} cells, the header has {len(header)}")
-            )
-            continue
-        long_cells = [h for h, c in zip(header, cells) if len(c) > MAX_CELL_CHARS]
-        if long_cells:
-            problems.extend(
-                Problem(label, line, h, f"cell longer than {MAX_CELL_CHARS} characters")
-                for h in long_cells
-            )
-            continue
-        record = dict(zip(header, cells))
+    with path.open("rb") as fh:
         try:
-            rows.append((line, model.model_validate(record)))
-        except ValidationError as exc:
-            problems.extend(_validation_problems(label, line, record, exc, model))
+            rows, problems = _parse(label, _records(_text_lines(fh)), model)
+        except _Unreadable as exc:
+            return [], [Problem(label, exc.line, "", exc.reason)], digest
     return rows, problems, digest
 
 
-def _records(text: str) -> Iterator[tuple[int, list[str] | str]]:
+def _fingerprint(path: Path, chunk_bytes: int = 1 << 20) -> tuple[str, int]:
+    """The sha256 of a file and an upper bound of its line count, read in chunks.
+
+    A line break split across two chunks may go uncounted (at most one per
+    mebibyte); the count only guards :data:`MAX_LINES`.
+    """
+    digest, breaks, last = hashlib.sha256(), 0, b""
+    with path.open("rb") as fh:
+        while chunk := fh.read(chunk_bytes):
+            digest.update(chunk)
+            breaks += sum(chunk.count(end) for end in _LINE_ENDS) - chunk.count(b"\r\n")
+            last = chunk[-1:]
+    unterminated = 1 if last and not any(end.endswith(last) for end in _LINE_ENDS) else 0
+    return digest.hexdigest(), breaks + unterminated
+
+
+def _parse(
+    label: str, records: Iterator[tuple[int, list[str] | str]], model: type[Row]
+) -> tuple[list[tuple], list[Problem]]:
+    """Validate the records of one file: the header, then every row against ``model``."""
+    first = next(records, None)
+    if first is None:
+        return [], [Problem(label, 0, "", "file is empty: a header row is required")]
+    header_line, header = first
+    if isinstance(header, str):
+        return [], [Problem(label, header_line, "", header)]
+    header = [h.strip() for h in header]
+    problems = _header_problems(label, header_line, header, model)
+    if problems:
+        return [], problems
+    rows: list[tuple] = []
+    for line, cells in records:
+        problems.extend(_row(label, line, header, cells, model, rows))
+    return rows, problems
+
+
+def _row(
+    label: str, line: int, header: list[str], cells: list[str] | str, model: type[Row], rows: list[tuple]
+) -> list[Problem]:
+    """Validate one record; a valid row is appended to ``rows`` (line, then its fields), else its problems are returned."""
+    if isinstance(cells, str):
+        return [Problem(label, line, "", cells)]
+    if len(cells) != len(header):
+        return [Problem(label, line, "", f"has {len(cells)} cells, the header has {len(header)}")]
+    long_cells = [h for h, c in zip(header, cells) if len(c) > MAX_CELL_CHARS]
+    if long_cells:
+        return [Problem(label, line, h, f"cell longer than {MAX_CELL_CHARS} characters") for h in long_cells]
+    record = dict(zip(header, cells))
+    try:
+        rows.append((line, *model.model_validate(record).model_dump().values()))
+    except ValidationError as exc:
+        return _validation_problems(label, line, record, exc, model)
+    return []
+
+
+def _text_lines(fh: BinaryIO) -> Iterator[tuple[int, str]]:
+    """The lines of a binary file as text, with their 1-based numbers, read one at a time.
+
+    Line breaks are those of ``str.splitlines`` (LF, CRLF, a lone CR, ...); a
+    UTF-8 byte-order mark at the start is dropped.
+
+    Raises
+    ------
+    _Unreadable
+        At the first line that is not UTF-8 or holds a NUL character.
+    """
+    number = 0
+    for raw in fh:
+        if number == 0:
+            raw = raw.removeprefix(codecs.BOM_UTF8)
+        try:
+            text = raw.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            where = number + len((raw[: exc.start].decode("utf-8") + "x").splitlines())
+            raise _Unreadable(where, f"not UTF-8 text (byte 0x{raw[exc.start]:02x})") from None
+        if "\x00" in text:
+            where = number + len((text[: text.index("\x00")] + "x").splitlines())
+            raise _Unreadable(where, "contains a NUL character: not a text file")
+        for part in text.splitlines():
+            number += 1
+            yield number, part
+
+
+def _records(numbered: Iterator[tuple[int, str]]) -> Iterator[tuple[int, list[str] | str]]:
     """CSV records with their physical line; ``#`` lines and blank lines skipped.
 
     A record the CSV reader cannot parse comes as its error message (a str).
@@ -185,7 +250,7 @@ def _records(text: str) -> Iterator[tuple[int, list[str] | str]]:
     state: dict[str, int | None] = {"start": None}
 
     def lines() -> Iterator[str]:
-        for number, line in enumerate(text.splitlines(), start=1):
+        for number, line in numbered:
             if not line.strip() or line.lstrip().startswith("#"):
                 continue
             if state["start"] is None:
@@ -254,10 +319,8 @@ def _clean_message(err: dict) -> str:
     return msg
 
 
-def _frame(rows: list[tuple[int, Row]], model: type[Row]) -> pd.DataFrame:
-    columns = ["line", *model.model_fields]
-    data = [{"line": line, **row.model_dump()} for line, row in rows]
-    frame = pd.DataFrame(data, columns=columns)
+def _frame(rows: list[tuple], model: type[Row]) -> pd.DataFrame:
+    frame = pd.DataFrame.from_records(rows, columns=["line", *model.model_fields])
     for name, info in model.model_fields.items():
         if info.annotation in (float,) or "float" in str(info.annotation):
             frame[name] = pd.to_numeric(frame[name], errors="coerce").astype(float)

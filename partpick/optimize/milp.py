@@ -121,11 +121,34 @@ def _solver(name: str, time_limit: float | None):
 
 
 def _run(m: pulp.LpProblem, sol, name: str) -> int:
+    """Solve ``m``; a missing, broken or killed solver program is a :class:`SolverError`."""
+    other = "highs" if name == "cbc" else "cbc"
+    if not sol.available():
+        where = getattr(sol, "path", None) or name
+        raise SolverError(f"the {name} solver program is missing or cannot be run ({where}); use --solver {other}")
     try:
         return m.solve(sol)
-    except pulp.PulpSolverError as exc:
-        other = "highs" if name == "cbc" else "cbc"
-        raise SolverError(f"the {name} solver failed ({exc}); try --solver {other}") from None
+    except pulp.PulpSolverError:
+        raise SolverError(
+            f"the {name} solver stopped abnormally (it crashed or was killed) and gave no design; "
+            f"run again or use --solver {other}"
+        ) from None
+
+
+def _found(m: pulp.LpProblem, time_limit: float | None) -> bool:
+    """True when the last solve gave a design, False when the model is infeasible.
+
+    A solver that stopped without a design and without proving infeasibility
+    (time limit, or any other stop) raises :class:`SolverError`: "no feasible
+    design" would be a false statement then.
+    """
+    if m.sol_status in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible):
+        return True
+    if m.status == pulp.LpStatusInfeasible or m.sol_status == pulp.LpSolutionInfeasible:
+        return False
+    if time_limit is not None:
+        raise SolverError(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
+    raise SolverError(f"the solver stopped without a design ({pulp.LpStatus[m.status]}); run again or use the other --solver")
 
 
 def line_need(problem: Problem, choice: dict[str, int]) -> dict[str, float]:
@@ -244,19 +267,19 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
             for v in vs:
                 m += u[line] - v >= 0
         goals.append(("lines", pulp.lpSum(u.values())))
+    proven = True
     for name, goal in goals:
         m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
-        status = _run(m, sol, solver)
-        if pulp.LpStatus[status] != "Optimal":
-            break
+        _run(m, sol, solver)
+        if not _found(m, time_limit):
+            return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
+        proven = proven and m.sol_status == pulp.LpSolutionOptimal
         m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
     _run(m, sol, solver)
-    found = m.sol_status in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible)
-    if not found or any(v.value() is None for vs in x.values() for v in vs[:1]):
-        if m.sol_status == pulp.LpSolutionNoSolutionFound and time_limit is not None:
-            raise SolverError(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
+    if not _found(m, time_limit):
         return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
+    proven = proven and m.sol_status == pulp.LpSolutionOptimal
     choice = {g: int(np.argmax([v.value() or 0.0 for v in vs])) for g, vs in x.items()}
     purchases = [
         Purchase(line, off.supplier, off.min_qty, off.unit_price, int(round(q.value())))
@@ -267,7 +290,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     parts = sum(p.qty * p.unit_price for p in purchases)
     fees = sum(problem.fees[s] for s in used)
     need = {l: ceil_units(q) for l, q in line_need(problem, choice).items()}
-    state = "optimal" if m.sol_status == pulp.LpSolutionOptimal else "not proven optimal"
+    state = "optimal" if proven else "not proven optimal"
     return Solution(state, choice, need, sorted(purchases, key=lambda p: (p.line, p.supplier)), round(parts, 6), round(fees, 6), used, solver)
 
 

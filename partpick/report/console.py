@@ -7,6 +7,7 @@ from dataclasses import dataclass
 
 from rich.console import Console
 from rich.table import Table
+from rich.text import Text
 
 from partpick.errors import Problem
 
@@ -27,20 +28,30 @@ class Terminal:
         self.out.print(*objects, **kwargs)
 
     def error(self, message: str) -> None:
-        self.err.print(f"[bold red]error:[/] {message}", highlight=False, soft_wrap=True)
+        self.err.print(labelled("error:", "bold red", message), highlight=False, soft_wrap=True)
 
     def print_problems(self, problems: list[Problem]) -> None:
         for p in problems:
             self.err.print(str(p), markup=False, highlight=False, soft_wrap=True)
-        self.err.print(
-            f"[bold red]{len(problems)} problem{'s' if len(problems) != 1 else ''}[/] "
-            "in the input; nothing was chosen.",
-            highlight=False,
-        )
+        count = f"{len(problems)} problem{'s' if len(problems) != 1 else ''}"
+        self.err.print(labelled(count, "bold red", "in the input; nothing was chosen."), highlight=False)
+
+
+def labelled(label: str, style: str, rest: str = "") -> Text:
+    """A styled label followed by plain text; no markup is read from either.
+
+    Names from the user's files (part numbers, suppliers, the spec name) reach
+    the terminal as they are: a ``[`` in them is text, never a style tag.
+
+    >>> labelled("warning:", "yellow", "[bold]X[/]").plain
+    'warning: [bold]X[/]'
+    """
+    return Text.assemble((label, style), f" {rest}" if rest else "")
 
 
 def make_console(no_color: bool = False, quiet: bool = False, width: int | None = None) -> Terminal:
-    kwargs = dict(no_color=no_color, highlight=False, soft_wrap=False)
+    # markup=False: every string printed is plain text (user data may contain "[").
+    kwargs = dict(no_color=no_color, highlight=False, soft_wrap=False, markup=False)
     if width is not None:
         kwargs["width"] = width
     if no_color:
@@ -86,5 +97,5 @@ def print_catalog_summary(term: Terminal, catalog) -> None:
         s.add_row(row.supplier, f"{row.order_fee:.2f} {row.currency}", str(len(mine)), str(int((mine["stock"] == 0).sum())))
     term.print(s)
     for w in catalog.warnings:
-        term.print(f"[yellow]warning:[/] {w}")
+        term.print(labelled("warning:", "yellow", w))
     term.always(f"catalogue OK: {sum(len(f) for f in (tr, op, rg, hs, pa, catalog.diodes))} parts and families, {len(catalog.offers)} offers")

@@ -1,6 +1,7 @@
 """Pictures of a design (``--plots DIR``): SOA with load lines, thermal budget, candidate funnel.
 
-Each picture is written as PNG (800 px wide) and SVG, atomically. The data
+Each picture is written as PNG (800 px wide) and SVG, all files of a run
+together and atomically (:func:`partpick.report.files.write_all`). The data
 behind each picture comes from pure functions (:func:`soa_plot_data`,
 :func:`thermal_plot_data`, :func:`funnel_rows`) so tests can compare what is
 drawn with the model; matplotlib is imported only when a picture is drawn, so
@@ -26,7 +27,7 @@ import numpy as np
 
 from partpick.model import soa, thermal
 from partpick.optimize.design import DesignResult
-from partpick.report.files import atomic_write_bytes
+from partpick.report.files import write_all
 
 OUTPUT_ROLES = ("output_npn", "output_pnp")
 #: Picture size: 8 in x 100 dpi = 800 px wide.
@@ -277,15 +278,14 @@ def _figure(height_in: float):
     return Figure(figsize=(WIDTH_IN, height_in), dpi=DPI, layout="constrained")
 
 
-def _save(fig, folder: Path, stem: str) -> list[Path]:
-    paths = []
+def _encode(fig, stem: str) -> dict[str, bytes]:
+    """A figure as PNG and SVG bytes, by file name."""
+    out = {}
     for fmt, meta in (("png", {"Software": None}), ("svg", {"Date": None})):
         buf = io.BytesIO()
         fig.savefig(buf, format=fmt, dpi=DPI, metadata=meta)
-        path = folder / f"{stem}.{fmt}"
-        atomic_write_bytes(path, buf.getvalue())
-        paths.append(path)
-    return paths
+        out[f"{stem}.{fmt}"] = buf.getvalue()
+    return out
 
 
 def _pct(x: float) -> str:
@@ -492,49 +492,53 @@ def _safe_stem(mpn: str) -> str:
     return re.sub(r"[^A-Za-z0-9._-]", "_", mpn).lstrip(".") or "part"
 
 
-def write_plots(result: DesignResult, folder: str | Path, report: dict | None = None) -> list[Path]:
-    """Write the pictures of ``result`` into ``folder`` (created if missing).
+def render_plots(result: DesignResult, report: dict | None = None) -> dict[str, bytes]:
+    """The pictures of ``result`` as file name -> bytes, PNG then SVG per picture.
 
     Parameters
     ----------
     result : a design run (feasible or not)
-    folder : output folder
     report : the run's report dict (from :func:`partpick.report.build.build_report`);
         built when not given; used for the funnel of an infeasible run
-
-    Returns
-    -------
-    The files written, PNG then SVG per picture.
     """
     import matplotlib
 
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
     name = result.spec.name
-    written: list[Path] = []
+    files: dict[str, bytes] = {}
     with matplotlib.rc_context(_RC):
         if not result.feasible:
             if report is None:
                 from partpick.report.build import build_report
 
                 report = build_report(result)
-            written += _save(draw_funnel(report["funnel"], name), folder, "funnel")
-            return written
+            return _encode(draw_funnel(report["funnel"], name), "funnel")
         stems: set[str] = set()
         for role in OUTPUT_ROLES:
             data = soa_plot_data(result, role)
             stem = f"soa_{_safe_stem(data.mpn)}"
             stem = stem if stem not in stems else f"{stem}_{role}"
             stems.add(stem)
-            written += _save(draw_soa(data, name), folder, stem)
+            files.update(_encode(draw_soa(data, name), stem))
         d = result.check.design
         n_on_sink = 2 * (result.targets.channels if result.spec.thermal.shared_heatsink else 1)
         fig = draw_thermal(thermal_plot_data(result), float(d["rth_sa_chosen_k_w"]), n_on_sink, name)
-        written += _save(fig, folder, "thermal")
-    return written
+        files.update(_encode(fig, "thermal"))
+    return files
+
+
+def write_plots(result: DesignResult, folder: str | Path, report: dict | None = None) -> list[Path]:
+    """Write the pictures of :func:`render_plots` into ``folder`` (created if missing).
+
+    Returns
+    -------
+    The files written, PNG then SVG per picture.
+    """
+    files = {Path(folder) / name: data for name, data in render_plots(result, report).items()}
+    write_all(files)
+    return list(files)
 
 
 __all__ = [
     "DeviceThermal", "Locus", "SoaPlot", "device_thermal", "thermal_plot_data", "soa_plot_data",
-    "worst_sample", "funnel_rows", "draw_soa", "draw_thermal", "draw_funnel", "write_plots",
+    "worst_sample", "funnel_rows", "draw_soa", "draw_thermal", "draw_funnel", "render_plots", "write_plots",
 ]

@@ -7,7 +7,7 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from partpick.report.console import Terminal
+from partpick.report.console import Terminal, labelled
 
 
 def _tight_style(fraction: float | None) -> str:
@@ -50,8 +50,8 @@ def render_design(term: Terminal, rep: dict) -> None:
     ]
     for r in rows:
         grid.add_row(*r)
-    title = f"{rep['spec']['name']}"
-    sub = "optimal" if rep.get("optimal") else "[yellow]not proven optimal[/]"
+    title = Text(rep["spec"]["name"])
+    sub = Text("optimal") if rep.get("optimal") else Text("not proven optimal", style="yellow")
     term.print(Panel(grid, title=title, subtitle=sub, expand=False))
     alt = d.get("bias_feed_alternative")
     if alt:
@@ -130,7 +130,7 @@ def render_infeasible(term: Terminal, rep: dict) -> None:
 
 def _warnings_and_cautions(term: Terminal, rep: dict) -> None:
     for w in rep.get("warnings", []):
-        term.print(f"[yellow]warning:[/] {w}")
+        term.print(labelled("warning:", "yellow", w))
     term.print(Panel("\n".join(f"- {c}" for c in rep["cautions"]), title="Safety", border_style="red", expand=False))
 
 
@@ -170,7 +170,7 @@ def render_changes(term: Terminal, rep: dict) -> None:
     diff = rep["totals"]["total"] - rep["previous_total"]
     term.always(f"total {rep['totals']['total']:.2f} {cur} against {rep['previous_total']:.2f} {cur} before ({diff:+.2f} {cur})")
     for role, note in rep.get("no_drop_in", {}).items():
-        term.always(f"[yellow]{role.replace('_', ' ')}:[/] {note}")
+        term.always(labelled(f"{role.replace('_', ' ')}:", "yellow", note))
 
 
 def render_risk(term: Terminal, rep: dict) -> None:

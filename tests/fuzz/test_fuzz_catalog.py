@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import csv
-import io
 import re
 import shutil
 from pathlib import Path
@@ -15,25 +13,11 @@ from partpick.catalog import load_catalog
 from partpick.cli import main
 from partpick.errors import InputError
 
+from .hostile import CELL, mutate_cell
+
 ROOT = Path(__file__).resolve().parents[2]
 FILES = ("transistors.csv", "opamps.csv", "heatsinks.csv", "passives.csv", "offers.csv", "suppliers.csv", "diodes.csv")
-NASTY = st.sampled_from(["", "nan", "inf", "-inf", "-1", "0", "1e308", "1e-320", "=1+2", "4k7", "22p", "0R22",
-                         "\ufeff", "a;b;c", "\"", "9" * 400, "NaN", "None", "true", "\t", " 12 "])
-CELL = st.one_of(NASTY, st.text(max_size=30))
 PROBLEM_LINE = re.compile(r"^.+?(:\d+)?: ")
-
-
-def _mutate(folder: Path, name: str, row: int, col: int, value: str) -> None:
-    path = folder / name
-    lines = path.read_text(encoding="utf-8").splitlines()
-    data = [i for i, l in enumerate(lines) if l and not l.startswith("#")]
-    target = data[1 + row % (len(data) - 1)]
-    cells = next(csv.reader([lines[target]]))
-    cells[col % len(cells)] = value
-    buf = io.StringIO()
-    csv.writer(buf, lineterminator="").writerow(cells)
-    lines[target] = buf.getvalue()
-    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
 
 
 @settings(max_examples=40, deadline=None, derandomize=True, database=None,
@@ -43,7 +27,7 @@ def test_one_hostile_cell_is_a_listed_problem_or_a_valid_catalogue(tmp_path_fact
     folder = tmp_path_factory.mktemp("cat")
     shutil.rmtree(folder)
     shutil.copytree(ROOT / "catalog", folder)
-    _mutate(folder, name, row, col, value)
+    mutate_cell(folder, name, row, col, value)
     try:
         cat = load_catalog(folder)
     except InputError as exc:

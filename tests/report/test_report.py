@@ -8,17 +8,24 @@ from __future__ import annotations
 
 import contextlib
 import csv
+import hashlib
 import io
 import json
 import re
 import shutil
+import sys
 from pathlib import Path
 
 import pandas as pd
 import pytest
 from pydantic import ValidationError
 
-from conftest import DEMO_CATALOG, EXAMPLES
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+from conftest import DEMO_CATALOG, EXAMPLES, FORMULA_START, ROOT, is_number
 from partpick.cli import main
 from partpick.report.schema import InfeasibleReport, OkReport, Report
 
@@ -36,12 +43,6 @@ arrangement = "split"
 v_min = 12.0
 v_max = 12.0
 """
-
-#: Characters that make a spreadsheet read a cell as a formula (OWASP, "CSV
-#: Injection", https://owasp.org/www-community/attacks/CSV_Injection: cells
-#: starting with =, +, -, @, tab or carriage return are to be prefixed with a
-#: single quote).
-FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 def design(tmp: Path, spec: Path, catalog: Path = DEMO_CATALOG, *extra: str) -> tuple[int, str, Path, Path]:
@@ -63,7 +64,7 @@ def runs(tmp_path_factory) -> dict[str, dict]:
         first = design(tmp_path_factory.mktemp(ex.stem), ex)
         second = design(tmp_path_factory.mktemp(ex.stem + "_again"), ex)
         assert first[0] == 0 and second[0] == 0, first[1][-2000:]
-        out[ex.name] = dict(code=first[0], stdout=first[1], json=first[2], csv=first[3], again=second,
+        out[ex.name] = dict(spec=ex, code=first[0], stdout=first[1], json=first[2], csv=first[3], again=second,
                             rep=json.loads(first[2].read_text(encoding="utf-8")))
     return out
 
@@ -170,6 +171,28 @@ def test_two_runs_write_identical_bytes_in_a_stable_key_order(runs, name):
     assert csv2.read_bytes() == r["csv"].read_bytes()
 
 
+@pytest.mark.parametrize("name", [e.name for e in EXAMPLES])
+def test_highs_writes_the_same_bytes_as_cbc_but_for_the_solver_name(runs, name, tmp_path):
+    """Ties are broken by a stable order, so the two solvers give one answer, byte for byte."""
+    r = runs[name]
+    code, out, rep_path, bom = design(tmp_path, r["spec"], DEMO_CATALOG, "--solver", "highs")
+    assert code == 0, out[-2000:]
+    assert bom.read_bytes() == r["csv"].read_bytes()
+    highs = rep_path.read_bytes()
+    assert highs.count(b'"solver": "highs"') == 1
+    assert highs.replace(b'"solver": "highs"', b'"solver": "cbc"') == r["json"].read_bytes()
+
+
+def test_report_records_version_solver_and_the_hash_of_every_catalogue_file(runs):
+    rep = runs[EXAMPLES[0].name]["rep"]
+    with open(ROOT / "pyproject.toml", "rb") as f:
+        version = tomllib.load(f)["project"]["version"]
+    files = sorted(p.name for p in DEMO_CATALOG.glob("*.csv"))
+    assert rep["partpick"]["version"] == version
+    assert rep["partpick"]["solver"] == "cbc"
+    assert rep["partpick"]["catalog_sha256"] == {n: hashlib.sha256((DEMO_CATALOG / n).read_bytes()).hexdigest() for n in files}
+
+
 # ----------------------------------------------------------------------------- order CSV
 
 
@@ -227,7 +250,7 @@ def test_formula_like_part_number_is_neutralised_in_the_csv(runs, tmp_path):
         cells = [c for row in csv.reader(f) for c in row]
     assert "'" + evil in cells
     assert evil not in cells
-    text_cells = [c for c in cells if not _is_number(c)]
+    text_cells = [c for c in cells if not is_number(c)]
     assert not [c for c in text_cells if c.startswith(FORMULA_START)]
 
 
@@ -246,14 +269,6 @@ def _rename_cells(path: Path, old: str, new: str) -> int:
         out.append(line)
     path.write_text("".join(out), encoding="utf-8")
     return count
-
-
-def _is_number(cell: str) -> bool:
-    try:
-        float(cell)
-    except ValueError:
-        return False
-    return True
 
 
 # ----------------------------------------------------------------------------- designators
