@@ -58,6 +58,8 @@ class OutputSpec(_Section):
 class StageSpec(_Section):
     bias_feed: Literal["resistor", "current_source", "auto"] = "auto"
     bias_tracking: bool = False
+    #: Current of each bias current source [A]; default the smallest that meets 1.5 x Ib_pk.
+    bias_source_current_a: float | None = Field(default=None, gt=0, le=2.0)
 
 
 class SupplySpec(_Section):

@@ -493,7 +493,10 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     out.attrs["rth"] = np.concatenate(rth) if rth else np.zeros((0, n_cls))
     unserved = np.flatnonzero(~(res_ok | ccs_ok))
     out.attrs["unserved"] = unserved
-    out.attrs["unserved_note"] = [_feed_note(mode, r1_max[i] if mode != "current_source" else np.nan, core.iloc[i], vd_min, res_ok[i], fams) for i in unserved]
+    out.attrs["unserved_note"] = [
+        _feed_note(mode, r1_max[i] if mode != "current_source" else np.nan, core.iloc[i], vd_min, fams, spec.stage.bias_source_current_a)
+        for i in unserved
+    ]
     return out
 
 
@@ -526,7 +529,9 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     rail_min = core["rail_min_v"].to_numpy(float)
     rail_max = core["rail_max_v"].to_numpy(float)
     base_pk = core["base_peak_v"].to_numpy(float)
-    i_req = np.maximum(swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float)), CCS_MIN_CURRENT_A)
+    i_need = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
+    fixed = spec.stage.bias_source_current_a
+    i_req = np.full(len(core), fixed) if fixed is not None else np.maximum(i_need, CCS_MIN_CURRENT_A)
     compliance = swing.ccs_compliance_margin_v(rail_min, base_pk) >= 0
     span = core["span_max_v"].to_numpy(float)
     amb = spec.thermal.ambient_c
@@ -548,7 +553,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                     p_e = i_act**2 * r_e
                     p_ref = (rail_max - vref) ** 2 / r_ref
                 fits = (
-                    compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref)
+                    compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref) & (i_act >= i_need)
                     & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
                     & (f.power_w >= RESISTOR_POWER_MARGIN * p_e) & (f.power_w >= RESISTOR_POWER_MARGIN * p_ref)
                 )
@@ -637,7 +642,7 @@ def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rai
     return np.minimum(outputs, np.stack(own, axis=1))
 
 
-def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, resistor_ok: bool, fams: pd.DataFrame) -> str:
+def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, fams: pd.DataFrame, spec_current: float | None) -> str:
     """Why no bias feed serves a configuration, with the numbers (issue of base drive, model s.3)."""
     ib = row["ib_peak_a"]
     parts = [f"needs {1e3 * BASE_DRIVE_MARGIN * ib:.0f} mA of base drive at the peak"]
@@ -651,8 +656,11 @@ def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, resistor
                          f"to be rated {RESISTOR_POWER_MARGIN * p:.2g} W (largest family rating {best:g} W)")
     if mode != "resistor":
         room = row["rail_min_v"] - row["base_peak_v"]
-        i_ccs = max(BASE_DRIVE_MARGIN * ib, CCS_MIN_CURRENT_A)
-        if room < CCS_COMPLIANCE_V:
+        i_ccs = spec_current if spec_current is not None else max(BASE_DRIVE_MARGIN * ib, CCS_MIN_CURRENT_A)
+        fixed = spec_current
+        if fixed is not None and fixed < BASE_DRIVE_MARGIN * ib:
+            parts.append(f"current source: the spec fixes it at {1e3 * fixed:.0f} mA, below the {1e3 * BASE_DRIVE_MARGIN * ib:.0f} mA needed")
+        elif room < CCS_COMPLIANCE_V:
             parts.append(f"current source: only {room:.2f} V of compliance left (needs {CCS_COMPLIANCE_V:g} V)")
         else:
             p = float(swing.ccs_transistor_dissipation_w(row["rail_max_v"], i_ccs))

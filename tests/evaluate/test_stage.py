@@ -176,3 +176,28 @@ def test_higher_rail_removes_headroom_rejections(catalog):
     st = evaluate_stage(spec, make_pool(spec, catalog), Targets.from_spec(spec))
     assert st_low.funnel["transistor headroom (s.3)"] > st.funnel["transistor headroom (s.3)"]
     assert math.isfinite(st_low.funnel["transistor headroom (s.3)"])
+
+
+def test_spec_fixes_the_source_current(catalog):
+    """``bias_source_current_a``: the sources are built for at least that current (model s.3 (a'))."""
+    text = BENCH.read_text().replace("bias_tracking = false", "bias_tracking = false\nbias_source_current_a = 0.16")
+    result = run(parse_spec(text), catalog)
+    assert result.feasible
+    d = result.check.design
+    # R_E is the next E-series value down from (Vref - Vbe) / 0.16 A, so the current is at
+    # least 0.16 A and at most one series step (< 25 % for E12 and finer) above it; the
+    # optimum without the key runs its sources at 147 mA.
+    assert 0.16 <= d["bias_current_a"] < 0.2
+    assert result.check.failing() == []
+
+
+def test_spec_source_current_below_the_base_drive_is_named(catalog):
+    """Hand-worked: TWK531 needs 1.5 x 3.0769 / 34.125 = 135 mA; a spec of 50 mA cannot feed it."""
+    text = BENCH.read_text().replace("bias_tracking = false", "bias_tracking = false\nbias_source_current_a = 0.05")
+    spec = parse_spec(text)
+    st = evaluate_stage(spec, make_pool(spec, catalog), Targets.from_spec(spec))
+    pi = int(np.flatnonzero(st.pairs["mpn_n"] == "TWK531")[0])
+    assert not (st.configs["pair_i"] == pi).any()
+    rej = st.rejected[(st.rejected["pair_i"] == pi) & (st.rejected["rejected_by"] == "bias feed (s.3)")]
+    assert len(rej) > 0
+    assert "the spec fixes it at 50 mA, below the 135 mA needed" in rej["reason"].iloc[0]
