@@ -16,7 +16,7 @@ from .hostile import TOML_VALUE, toml_value
 KEYS = {
     "output": ["power_w", "load_ohm", "load_min_ohm", "load_phase_deg", "channels", "f_low_hz", "f_high_hz",
                "input_vrms", "pairing", "short_circuit", "iq_a", "powr_w"],
-    "stage": ["bias_feed", "bias_tracking"],
+    "stage": ["bias_feed", "bias_tracking", "bias_source_current_a"],
     "supply": ["arrangement", "v_min", "v_max", "regulate"],
     "thermal": ["ambient_c", "tj_derate_c", "shared_heatsink"],
     "order": ["boards", "spares_pct", "objective", "suppliers", "exclude"],
