@@ -58,6 +58,21 @@ def old_outputs(tmp_path) -> dict[Path, bytes]:
     return old
 
 
+def test_outputs_get_the_mode_a_plain_open_gives(tmp_path):
+    """A temporary file is private (0600); the finished output must not be (umask applies)."""
+    old = os.umask(0o022)
+    try:
+        files.write_all({tmp_path / "report.json": b"{}", tmp_path / "pics" / "soa.png": b"x"})
+        plain = tmp_path / "plain.txt"
+        plain.write_bytes(b"")
+    finally:
+        os.umask(old)
+    want = plain.stat().st_mode & 0o777
+    assert want == 0o644
+    assert (tmp_path / "report.json").stat().st_mode & 0o777 == want
+    assert (tmp_path / "pics" / "soa.png").stat().st_mode & 0o777 == want
+
+
 def test_a_failing_rename_keeps_every_old_file_and_leaves_no_temporary_file(old_outputs, tmp_path, monkeypatch):
     def full_disk(src, dst):
         raise OSError(28, "No space left on device")

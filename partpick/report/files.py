@@ -54,6 +54,8 @@ def _stage(path: Path, data: bytes) -> str:
     folder.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     try:
+        # mkstemp makes the file private (0600); give it the mode a plain open would.
+        os.fchmod(fd, 0o666 & ~_umask())
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()
@@ -62,6 +64,13 @@ def _stage(path: Path, data: bytes) -> str:
         os.unlink(tmp)
         raise
     return tmp
+
+
+def _umask() -> int:
+    """The process's file-mode creation mask (read by setting it and putting it back)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
 
 @contextlib.contextmanager
