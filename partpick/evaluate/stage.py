@@ -208,22 +208,29 @@ def _soa_utilisation(pool: Pool, pairs: pd.DataFrame, rails: pd.DataFrame, spec:
     """Largest Ic / I_soa,25C over the load line (and the short-circuit point), [pair, rail].
 
     The SOA margin at case temperature Tc is 1 - u / derating(Tc), so the stage
-    passes at every Tc with derating(Tc) >= u (model s.5).
+    passes at every Tc with derating(Tc) >= u (model s.5). Only the devices of
+    some pair, the distinct rail voltages and the samples where the device
+    conducts are evaluated: the others cannot change the maximum.
     """
     tr = pool.transistors
-    bp_v, bp_a = soa.pad_curves([(np.array(v), np.array(a)) if len(v) else None for v, a in zip(tr["soa_v"], tr["soa_a"])])
-    rail = rails["rail_max_v"].to_numpy(float)
-    vce, ic = soa.load_line(rail, targets.v_peak_v, targets.i_peak_a, targets.phase_rad)  # [R, S]
+    devices, device_of = np.unique(np.concatenate([pairs["npn_i"].to_numpy(int), pairs["pnp_i"].to_numpy(int)]), return_inverse=True)
+    sub = tr.iloc[devices]
+    bp_v, bp_a = soa.pad_curves([(np.array(v), np.array(a)) if len(v) else None for v, a in zip(sub["soa_v"], sub["soa_a"])])
+    rail_values, rail_of = np.unique(rails["rail_max_v"].to_numpy(float), return_inverse=True)
+    vce, ic = soa.load_line(rail_values, targets.v_peak_v, targets.i_peak_a, targets.phase_rad)  # [R, S]
+    conducting = np.flatnonzero((ic > 0).any(axis=0))
+    vce, ic = vce[:, conducting], ic[:, conducting]
     if spec.output.short_circuit:
-        vce = np.concatenate([vce, rail[:, None]], axis=1)
-        ic = np.concatenate([ic, np.full((len(rail), 1), targets.i_peak_a)], axis=1)
+        vce = np.concatenate([vce, rail_values[:, None]], axis=1)
+        ic = np.concatenate([ic, np.full((len(rail_values), 1), targets.i_peak_a)], axis=1)
     # Limit for every device at every rail's samples: [D, R, S].
     limit = soa.soa_current_limit_a(
-        np.broadcast_to(vce, (len(tr),) + vce.shape),
-        bp_v, bp_a, tr["ic_max_a"].to_numpy(float), tr["pd_max_w"].to_numpy(float), tr["vceo_v"].to_numpy(float),
+        np.broadcast_to(vce, (len(sub),) + vce.shape),
+        bp_v, bp_a, sub["ic_max_a"].to_numpy(float), sub["pd_max_w"].to_numpy(float), sub["vceo_v"].to_numpy(float),
     )
-    util = np.max(np.where(ic > 0, ic / np.maximum(limit, 1e-12), 0.0), axis=-1)  # [D, R]
-    return np.maximum(util[pairs["npn_i"].to_numpy()], util[pairs["pnp_i"].to_numpy()])
+    util = np.max(np.where(ic > 0, ic / np.maximum(limit, 1e-12), 0.0), axis=-1)[:, rail_of]  # [D, R]
+    n = len(pairs)
+    return np.maximum(util[device_of[:n]], util[device_of[n:]])
 
 
 # --------------------------------------------------------------------------- Re
