@@ -540,8 +540,15 @@ def table(m: dict) -> str:
     lines.append(f"   totals: partpick {pp:.4f} (all runs {sorted(set(round(t, 6) for t in m['totals']))})"
                  + (f", exhaustive {ex['total']:.4f}" if "total" in ex else "")
                  + (f", unpruned {un['total']:.4f}" if proven else "")
-                 + f" -> {'OK' if all(ok) else 'MISMATCH'} (tolerance {m['tolerance']:.2g})")
+                 + f" -> {verdict(m['status'], all(ok))} (tolerance {m['tolerance']:.2g})")
     return "\n".join(lines)
+
+
+def verdict(status: str, agree: bool) -> str:
+    """OK only for a proven optimum that every finished route agrees with."""
+    if status != "ok":
+        return f"UNPROVEN (partpick route: {status}, solve capped by --solve-limit)"
+    return "OK" if agree else "MISMATCH"
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -577,7 +584,7 @@ def main(argv: list[str] | None = None) -> int:
         m = json.loads(found[-1][len("RESULT "):])
         print(table(m))
         print(f"   wall time of this size incl. generation and baseline: {time.perf_counter() - t0:.1f} s", flush=True)
-        status |= "MISMATCH" in table(m)
+        status |= "MISMATCH" in table(m) or "UNPROVEN" in table(m)
     return int(status)
 
 
