@@ -1,10 +1,10 @@
 """The benchmark helpers on the small size: the generated catalogue and the agreement of routes.
 
 Untimed. The catalogue generator must write files that the loader accepts in
-the layout of formats.md; on that catalogue the MILP (partpick's route) and
-the exhaustive baseline of ``tests/bench/bench_design.py`` (an independent
-route: enumeration plus exact pricing, no solver) must reach the same order
-total.
+the layout of formats.md; on that catalogue the MILP (partpick's route, with its
+reductions), the exhaustive baseline of ``tests/bench/bench_design.py`` (an
+independent route: enumeration plus exact pricing, no solver) and the
+unpruned MILP must reach the same order total.
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ import pytest
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench.bench_design import DEFAULT_SPEC, agreement_tolerance, exhaustive_optimum, staged_run  # noqa: E402
+from bench.bench_design import DEFAULT_SPEC, agreement_tolerance, exhaustive_optimum, staged_run, unpruned_route  # noqa: E402
 from bench.make_catalog import size_counts, write_catalog  # noqa: E402
 from conftest import csv_records  # noqa: E402
 from partpick.catalog import load_catalog  # noqa: E402
@@ -98,3 +98,7 @@ def test_routes_agree_on_the_small_size(small_folder: Path, spec_path: Path) -> 
     assert ex.combinations > 0
     assert check_choice(problem, ex.choice) == []
     assert ex.total == pytest.approx(sol.total, abs=agreement_tolerance(problem, sol))
+    # The benchmark's unpruned route: the whole Problem, no reductions, same answer.
+    whole = unpruned_route(problem, "cbc", time_limit_s=300.0)
+    assert whole["status"] == "optimal"
+    assert whole["total"] == pytest.approx(sol.total, abs=1e-9)

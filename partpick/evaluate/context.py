@@ -116,18 +116,19 @@ def make_pool(
     allowed = set(spec.order.suppliers) or known_suppliers
     excluded = set(spec.order.exclude) | set(extra_exclude)
     offers = catalog.offers[catalog.offers["supplier"].isin(allowed) & ~catalog.offers["mpn"].isin(excluded)]
-    offered = set(offers.loc[offers["stock"] > 0, "mpn"])
+    in_stock = set(offers.loc[offers["stock"] > 0, "mpn"])
+    any_offer = set(offers["mpn"])
     left_out: dict[str, str] = {}
     for m in sorted(known_parts):
         if m in excluded:
             left_out[m] = "excluded"
-        elif m not in set(offers["mpn"]):
+        elif m not in any_offer:
             left_out[m] = "no offer from an allowed supplier"
-        elif m not in offered:
+        elif m not in in_stock:
             left_out[m] = "out of stock at every allowed supplier"
 
     def keep(frame: pd.DataFrame, key: str = "mpn") -> pd.DataFrame:
-        return frame[~frame[key].isin(left_out.keys())].reset_index(drop=True)
+        return frame[~frame[key].isin(set(left_out))].reset_index(drop=True)
 
     return Pool(
         catalog=catalog,

@@ -24,7 +24,7 @@ issue notes):
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
@@ -35,14 +35,12 @@ from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
     RTH_CS_INSULATED_K_W,
     CCS_COMPLIANCE_V,
-    CCS_REFERENCE_CURRENT_A,
     DIODE_DROP_V,
     DVBE_DT_V_K,
     LOOP_GAIN_MAX,
     RE_MAX_OHM,
     RE_MIN_OHM,
     RESISTOR_POWER_MARGIN,
-    VCEO_MARGIN,
 )
 from partpick.spec import Spec
 
@@ -78,6 +76,27 @@ class StageTable:
     funnel: dict[str, int]
     rejected: pd.DataFrame
     considered: int
+    explain: _Explainer | None = None
+
+    def reason(self, row: pd.Series | dict) -> str:
+        """The sentence, with its numbers, for one row of ``rejected`` (built on demand)."""
+        r = dict(row)
+        return describe_rejection(r, self.explain) if self.explain is not None else str(r["rejected_by"])
+
+    def with_reasons(self, rows: pd.DataFrame) -> pd.DataFrame:
+        """``rows`` of ``rejected`` with a ``reason`` column."""
+        return rows.assign(reason=[self.reason(r) for r in rows.to_dict("records")])
+
+
+@dataclass
+class _Explainer:
+    """What the rejection sentences need beyond a rejected row's own numbers."""
+
+    targets: Targets
+    mode: str  # the spec's bias_feed
+    vd_min: float  # lowest bias-diode drop [V]
+    family_power_max_w: float  # best resistor-family rating [W]
+    spec_current: float | None  # the spec's bias_source_current_a [A]
 
 
 @dataclass
@@ -219,22 +238,29 @@ def _soa_utilisation(pool: Pool, pairs: pd.DataFrame, rails: pd.DataFrame, spec:
     """Largest Ic / I_soa,25C over the load line (and the short-circuit point), [pair, rail].
 
     The SOA margin at case temperature Tc is 1 - u / derating(Tc), so the stage
-    passes at every Tc with derating(Tc) >= u (model s.5).
+    passes at every Tc with derating(Tc) >= u (model s.5). Only the devices of
+    some pair, the distinct rail voltages and the samples where the device
+    conducts are evaluated: the others cannot change the maximum.
     """
     tr = pool.transistors
-    bp_v, bp_a = soa.pad_curves([(np.array(v), np.array(a)) if len(v) else None for v, a in zip(tr["soa_v"], tr["soa_a"])])
-    rail = rails["rail_max_v"].to_numpy(float)
-    vce, ic = soa.load_line(rail, targets.v_peak_v, targets.i_peak_a, targets.phase_rad)  # [R, S]
+    devices, device_of = np.unique(np.concatenate([pairs["npn_i"].to_numpy(int), pairs["pnp_i"].to_numpy(int)]), return_inverse=True)
+    sub = tr.iloc[devices]
+    bp_v, bp_a = soa.pad_curves([(np.array(v), np.array(a)) if len(v) else None for v, a in zip(sub["soa_v"], sub["soa_a"])])
+    rail_values, rail_of = np.unique(rails["rail_max_v"].to_numpy(float), return_inverse=True)
+    vce, ic = soa.load_line(rail_values, targets.v_peak_v, targets.i_peak_a, targets.phase_rad)  # [R, S]
+    conducting = np.flatnonzero((ic > 0).any(axis=0))
+    vce, ic = vce[:, conducting], ic[:, conducting]
     if spec.output.short_circuit:
-        vce = np.concatenate([vce, rail[:, None]], axis=1)
-        ic = np.concatenate([ic, np.full((len(rail), 1), targets.i_peak_a)], axis=1)
+        vce = np.concatenate([vce, rail_values[:, None]], axis=1)
+        ic = np.concatenate([ic, np.full((len(rail_values), 1), targets.i_peak_a)], axis=1)
     # Limit for every device at every rail's samples: [D, R, S].
     limit = soa.soa_current_limit_a(
-        np.broadcast_to(vce, (len(tr),) + vce.shape),
-        bp_v, bp_a, tr["ic_max_a"].to_numpy(float), tr["pd_max_w"].to_numpy(float), tr["vceo_v"].to_numpy(float),
+        np.broadcast_to(vce, (len(sub),) + vce.shape),
+        bp_v, bp_a, sub["ic_max_a"].to_numpy(float), sub["pd_max_w"].to_numpy(float), sub["vceo_v"].to_numpy(float),
     )
-    util = np.max(np.where(ic > 0, ic / np.maximum(limit, 1e-12), 0.0), axis=-1)  # [D, R]
-    return np.maximum(util[pairs["npn_i"].to_numpy()], util[pairs["pnp_i"].to_numpy()])
+    util = np.max(np.where(ic > 0, ic / np.maximum(limit, 1e-12), 0.0), axis=-1)[:, rail_of]  # [D, R]
+    n = len(pairs)
+    return np.maximum(util[device_of[:n]], util[device_of[n:]])
 
 
 # --------------------------------------------------------------------------- Re
@@ -356,7 +382,7 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     funnel["bias feed (s.3)"] = int(len(unserved))
     feed_rejected = core.iloc[unserved].copy()
     feed_rejected["rejected_by"] = "bias feed (s.3)"
-    feed_rejected["feed_note"] = feeds.attrs["unserved_note"]
+    feed_rejected["r1_max_ohm"] = feeds.attrs["unserved_r1_max"]
 
     # Regulator heat (model s.10), when the rail comes from a regulator.
     reg = rails.iloc[k["rail_i"].to_numpy()]
@@ -376,11 +402,13 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     k["key"] = _keys(k, rails, pairs)
 
     rejected = pd.concat([core_rejected, feed_rejected], ignore_index=True)
-    rejected["reason"] = [describe_rejection(r, targets) for r in rejected.to_dict("records")]
+    fams = pool.passives[pool.passives["kind"] == "resistor"]
+    explain = _Explainer(targets, spec.stage.bias_feed, vd_min, float(fams["power_w"].max()) if len(fams) else 0.0,
+                         spec.stage.bias_source_current_a)
     return StageTable(
         configs=k, rth_sa_max=rth_k, rth_cs_classes=classes, feed_options=feed_opts,
         re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=rejected,
-        considered=n_r * n_p * n_e,
+        considered=n_r * n_p * n_e, explain=explain,
     )
 
 
@@ -493,10 +521,7 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     out.attrs["rth"] = np.concatenate(rth) if rth else np.zeros((0, n_cls))
     unserved = np.flatnonzero(~(res_ok | ccs_ok))
     out.attrs["unserved"] = unserved
-    out.attrs["unserved_note"] = [
-        _feed_note(mode, r1_max[i] if mode != "current_source" else np.nan, core.iloc[i], vd_min, fams, spec.stage.bias_source_current_a)
-        for i in unserved
-    ]
+    out.attrs["unserved_r1_max"] = r1_max[unserved] if mode != "current_source" else np.full(len(unserved), np.nan)
     return out
 
 
@@ -642,8 +667,9 @@ def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rai
     return np.minimum(outputs, np.stack(own, axis=1))
 
 
-def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, fams: pd.DataFrame, spec_current: float | None) -> str:
+def _feed_note(row: dict, ex: _Explainer) -> str:
     """Why no bias feed serves a configuration, with the numbers (issue of base drive, model s.3)."""
+    mode, r1_max, vd_min, spec_current = ex.mode, row.get("r1_max_ohm", np.nan), ex.vd_min, ex.spec_current
     ib = row["ib_peak_a"]
     parts = [f"needs {1e3 * BASE_DRIVE_MARGIN * ib:.0f} mA of base drive at the peak"]
     if mode != "current_source":
@@ -651,7 +677,7 @@ def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, fams: pd
             parts.append("resistor feed: no voltage left across R1 at the peak")
         else:
             p = float(swing.bias_resistor_power_w(row["rail_max_v"], vd_min, row["base_peak_v"], r1_max))
-            best = float(fams["power_w"].max()) if len(fams) else 0.0
+            best = ex.family_power_max_w
             parts.append(f"resistor feed would need R1 <= {r1_max:.3g} ohm dissipating {p:.2g} W, "
                          f"to be rated {RESISTOR_POWER_MARGIN * p:.2g} W (largest family rating {best:g} W)")
     if mode != "resistor":
@@ -668,9 +694,17 @@ def _feed_note(mode: str, r1_max: float, row: pd.Series, vd_min: float, fams: pd
     return "; ".join(parts)
 
 
-def describe_rejection(r: dict, targets: Targets) -> str:
+def feed_failure(stage: StageTable, row: pd.Series | dict, mode: str) -> str:
+    """Why bias feed ``mode`` cannot serve a configuration (a row of ``configs``), as a sentence."""
+    r = dict(row)
+    r["rejected_by"] = "bias feed (s.3)"
+    r["r1_max_ohm"] = float(swing.bias_resistor_max_ohm(r["rail_min_v"], r["base_peak_v"], r["ib_peak_a"]))
+    return describe_rejection(r, replace(stage.explain, mode=mode))
+
+
+def describe_rejection(r: dict, ex: _Explainer) -> str:
     """The first failing stage constraint as a sentence with its numbers."""
-    vp, ip = targets.v_peak_v, targets.i_peak_a
+    vp, ip = ex.targets.v_peak_v, ex.targets.i_peak_a
     by = r["rejected_by"]
     if by.startswith("transistor headroom"):
         need = vp + ip * r["re_ohm"] + r["vce_sat_v"]
@@ -686,7 +720,7 @@ def describe_rejection(r: dict, targets: Targets) -> str:
     if by.startswith("thermal"):
         return f"{by}: the largest tolerable Rth_sa is {r['rth_sa_best_k_w']:.2f} K/W at {r['p_device_w']:.1f} W per device"
     if by.startswith("bias feed"):
-        return f"{by}: {r.get('feed_note', '')}"
+        return f"{by}: {_feed_note(r, ex)}"
     return by
 
 

@@ -263,7 +263,7 @@ def near_misses(result: DesignResult, n: int = 3) -> list[str]:
     for i in np.argsort(-score, kind="stable")[:n]:
         r = rej.iloc[i]
         p = pairs.iloc[int(r["pair_i"])]
-        msgs.append(f"near miss: {p['mpn_n']}/{p['mpn_p']} with Re {r['re_ohm']:g} ohm at {r['rail_min_v']:.1f} V: {r['reason']}")
+        msgs.append(f"near miss: {p['mpn_n']}/{p['mpn_p']} with Re {r['re_ohm']:g} ohm at {r['rail_min_v']:.1f} V: {result.stage.reason(r)}")
     return msgs
 
 

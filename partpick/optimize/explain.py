@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.optimize.design import ROLE_ORDER, DesignResult, infeasible_cause, option_sources, prepare, run, usable_sources
+from partpick.optimize.design import ROLE_ORDER, DesignResult, option_sources, prepare, run, usable_sources
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -179,7 +179,7 @@ def _first_rejection(result: DesignResult, mpn: str, roles: list[str]) -> str | 
             return None
         order = {name: i for i, name in enumerate(FIRST_FAIL_ORDER)}
         furthest = rej.assign(depth=rej["rejected_by"].map(order)).sort_values(["depth", "headroom_v"], ascending=[False, False])
-        return str(furthest["reason"].iloc[0])
+        return result.stage.reason(furthest.iloc[0])
     if result.assembly is None:
         return None
     for role in roles:
@@ -218,25 +218,36 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
 def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ...] = (), solver: str = "cbc") -> dict | None:
     """With ``bias_feed = "auto"``: the other feed's best design, or why it has none.
 
+    The design's own assembled problem is solved again with the stage held to
+    configurations of the other feed (the same optimum as a run with the spec
+    fixing that feed: every other constraint is the same). When no
+    configuration has that feed, the reason is the other feed's failure at the
+    chosen configuration, with its numbers.
+
     Returns ``{"feed", "feasible", "total", "extra_cost", "reason"}`` for the
     feed that was not chosen; None when the spec fixes the feed.
     """
     if result.spec.stage.bias_feed != "auto" or not result.feasible:
         return None
+    from partpick.evaluate.stage import feed_failure
+    from partpick.optimize.milp import Coupling, solve
+
     chosen = result.check.design["bias_feed"]
     other = "resistor" if chosen == "current_source" else "current_source"
-    alt = run(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver)
-    if alt.feasible:
-        extra = alt.solution.total - result.solution.total
-        return {"feed": other, "feasible": True, "total": round(alt.solution.total, 2), "extra_cost": round(extra, 2),
-                "reason": f"the best {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
-    k = result.assembly.tables["stage"].iloc[result.solution.choice["stage"]]
-    rej = alt.stage.rejected
-    mine = rej[(rej["pair_i"] == k["pair_i"]) & (rej["rejected_by"] == "bias feed (s.3)")] if len(rej) else rej
-    if len(mine):
-        reason = str(mine["reason"].iloc[0])
+    k = result.assembly.tables["stage"]
+    mask = (k["feed"].to_numpy() == other).astype(float)
+    if mask.any():
+        problem = result.assembly.problem
+        problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
+        try:
+            alt = solve(problem, solver=solver)
+        finally:
+            problem.couplings.pop()
+        if alt.status != "infeasible":
+            extra = alt.total - result.solution.total
+            return {"feed": other, "feasible": True, "total": round(alt.total, 2), "extra_cost": round(extra, 2),
+                    "reason": f"the best {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
+        reason = "no design with it meets the couplings with the other roles"
     else:
-        causes = infeasible_cause(alt)
-        reason = causes[0] if causes else "no design with it meets the couplings with the other roles"
+        reason = feed_failure(result.stage, k.iloc[result.solution.choice["stage"]], other)
     return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
-

@@ -28,6 +28,7 @@ import numpy as np
 import pulp
 
 from partpick.errors import SolverError, UsageError
+from partpick.optimize.buying import cheapest_purchase
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
@@ -110,7 +111,10 @@ class Solution:
 
 def _solver(name: str, time_limit: float | None):
     if name == "cbc":
-        return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, options=["randomSeed 1", "randomCbcSeed 1"])
+        # CBC 2.10's preprocessing returned a dearer design as optimal on some
+        # small problems with shared lines (found by the pruning tests against
+        # brute force), and it took most of CBC's time on small models.
+        return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, options=["randomSeed 1", "randomCbcSeed 1", "preprocess off"])
     if name == "highs":
         try:
             import highspy  # noqa: F401
@@ -165,20 +169,120 @@ def ceil_units(x: float) -> int:
     return int(math.ceil(round(x, 6)))
 
 
-def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None) -> Solution:
-    """Build and solve the MILP; see the module docstring for the formulation."""
-    m = pulp.LpProblem("partpick", pulp.LpMinimize)
-    x: dict[str, list[pulp.LpVariable]] = {}
-    tie = []
+def tie_weights(problem: Problem) -> dict[str, np.ndarray]:
+    """Tie-break weight of each option: its rank in the group's stable key order, scaled below ``TIE_WEIGHT``."""
+    out = {}
     for gname, g in problem.groups.items():
         order = np.argsort(np.array(g.keys, dtype=object), kind="stable")
         rank = np.empty(len(g), dtype=float)
         rank[order] = np.arange(len(g))
+        out[gname] = TIE_WEIGHT * rank / max(len(g) - 1, 1)
+    return out
+
+
+def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None, prune: bool = True) -> Solution:
+    """The optimal choice and order; see the module docstring for the formulation.
+
+    With ``prune`` (the default) the exact reductions of
+    :mod:`partpick.optimize.prune` shrink the problem first: dominated
+    options go, and with a cost objective the problem is solved on the
+    options whose cost bound lies below a threshold that widens until the
+    optimum is proven (:func:`_solve_bounded`). The answer, tie-break
+    included, is the one the whole problem gives; ``prune=False`` solves the
+    whole problem (the benchmark's reference route).
+    """
+    tie = tie_weights(problem)
+    if not prune:
+        return solve_model(problem, tie, solver, time_limit)
+    from partpick.optimize import prune as reduce
+
+    fixed = reduce.forced_only(problem)
+    sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
+    if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
+        sol = _solve_bounded(sub, sub_tie, solver, time_limit)
+    else:
+        sol = _solve_reduced(sub, reduce.dominated(sub, sub_tie), sub_tie, solver, time_limit)
+    return _lift(sol, fixed)
+
+
+def _lift(sol: Solution, keep: dict[str, np.ndarray]) -> Solution:
+    """The solution of a restricted problem with its choice in the whole problem's indices."""
+    sol.choice = {g: int(keep[g][o]) for g, o in sol.choice.items()}
+    return sol
+
+
+def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
+    """Solve the problem restricted to the ``keep`` options; the choice in the whole problem's indices."""
+    from partpick.optimize.prune import restrict
+
+    return _lift(solve_model(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, time_limit), keep)
+
+
+def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
+    """Solve on the options whose cost bound is below a threshold T, widening T until the optimum is proven.
+
+    Every design holding an option left out costs more than T; once the
+    optimum z found below T satisfies z + (largest tie-break term) <= T, no
+    left-out option can be in an optimal design. A threshold that leaves no
+    feasible design is widened geometrically; a feasible optimum above
+    ``T - margin`` sets ``T = z + margin`` for one last solve.
+    """
+    from partpick.optimize import prune as reduce
+
+    bound = reduce.lower_bounds(problem)
+    floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
+    finite = np.concatenate([b[np.isfinite(b)] for b in bound.values()])
+    if not math.isfinite(floor) or not len(finite):
+        return _infeasible(solver)
+    top = float(finite.max())
+    step = max(0.1 * abs(floor), 1.0) + max(problem.fees.values(), default=0.0)
+    threshold = floor + step
+    while True:
+        inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
+        sol = None
+        if all(len(k) for k in inside.values()):
+            sub = reduce.restrict(problem, inside)
+            keep = reduce.compose(inside, reduce.dominated(sub, {g: tie[g][inside[g]] for g in tie}))
+            sol = _solve_reduced(problem, keep, tie, solver, time_limit)
+            if sol.status == "not proven optimal":
+                return sol
+            if sol.status == "optimal":
+                value = objective_value(problem, sol)
+                if value + _tie_margin(problem, sol) <= threshold or threshold >= top:
+                    return sol
+                threshold = value + _tie_margin(problem, sol)
+                continue
+        if threshold >= top:
+            return sol if sol is not None else _infeasible(solver)
+        threshold = min(top, floor + 4.0 * (threshold - floor))
+
+
+def objective_value(problem: Problem, sol: Solution) -> float:
+    """The cost objective of a solution: parts, fees and weighted changes (no tie-break terms)."""
+    changes = sum(float(problem.change_cost[g][sol.choice[g]]) for g in problem.change_cost)
+    return sol.total + (problem.change_weight or 0.0) * changes
+
+
+def _tie_margin(problem: Problem, sol: Solution) -> float:
+    """More than the tie-break terms of the solution's objective can add (ranks and supplier order)."""
+    bought = sum(p.qty for p in sol.purchases)
+    return len(problem.groups) * TIE_WEIGHT + 1e-7 * (len(problem.fees) + 1) * bought + 1e-6
+
+
+def _infeasible(solver: str) -> Solution:
+    return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
+
+
+def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc", time_limit: float | None = None) -> Solution:
+    """Build the MILP of the whole problem, with the given tie-break weights, and solve it."""
+    m = pulp.LpProblem("partpick", pulp.LpMinimize)
+    x: dict[str, list[pulp.LpVariable]] = {}
+    tie_terms = []
+    for gname, g in problem.groups.items():
         vars_ = [pulp.LpVariable(f"x_{gname}_{i}", cat="Binary") for i in range(len(g))]
         x[gname] = vars_
-        m += pulp.lpSum(vars_) == 1, f"one_{gname}"
-        if len(g) > 1:
-            tie.append(pulp.LpAffineExpression(zip(vars_, TIE_WEIGHT * rank / (len(g) - 1))))
+        m += pulp.LpAffineExpression([(v, 1.0) for v in vars_]) == 1, f"one_{gname}"
+        tie_terms += [(v, float(w)) for v, w in zip(vars_, tie[gname]) if w]
         if gname in problem.forced:
             m += vars_[problem.forced[gname]] == 1, f"forced_{gname}"
     for gname, g in problem.groups.items():
@@ -199,6 +303,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     # Line needs as expressions of the choice.
     need_expr: dict[str, list[tuple[pulp.LpVariable, float]]] = {}
     users: dict[str, list[pulp.LpVariable]] = {}
+    users_by_group: dict[str, dict[str, dict[str, pulp.LpVariable]]] = {}
     # Largest need of each line: the sum over groups of each group's largest use.
     most: dict[str, dict[str, float]] = {}
     for gname, g in problem.groups.items():
@@ -209,17 +314,20 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
                 units = round(per_board * problem.factor, 6)
                 need_expr.setdefault(line, []).append((x[gname][i], units))
                 users.setdefault(line, []).append(x[gname][i])
+                users_by_group.setdefault(line, {}).setdefault(gname, {})[x[gname][i].name] = x[gname][i]
                 per_group = most.setdefault(line, {})
                 per_group[gname] = max(per_group.get(gname, 0.0), units)
     suppliers = sorted(problem.fees)
     y = {s: pulp.LpVariable(f"y_{k}", cat="Binary") for k, s in enumerate(suppliers)}
     cost_terms = [(y[s], problem.fees[s]) for s in suppliers]
+    supplier_tie = {s: 1e-7 * (i + 1) for i, s in enumerate(suppliers)}
     buy: list[tuple[str, Offer, pulp.LpVariable]] = []
     for l_i, line in enumerate(sorted(need_expr)):
         offers = problem.line_offers.get(line, [])
         # No plan buys more than the largest need, except to reach a break or MOQ.
         need_max = ceil_units(sum(most[line].values()))
         qs = []
+        first_buy = len(buy)
         by_supplier: dict[str, list[pulp.LpVariable]] = {}
         for r_i, off in enumerate(offers):
             low = max(off.min_qty, off.moq)
@@ -234,7 +342,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
             by_supplier.setdefault(off.supplier, []).append(z)
             # Price plus a sub-cent preference for the earlier supplier, so that
             # equal prices split the same way with every solver.
-            cost_terms.append((q, off.unit_price + 1e-7 * (suppliers.index(off.supplier) + 1)))
+            cost_terms.append((q, off.unit_price + supplier_tie[off.supplier]))
             qs.append((q, 1.0))
             buy.append((line, off, q))
         # A line's offers are used only when some chosen option needs the line
@@ -245,9 +353,26 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
             if len(zs) > 1:
                 m += pulp.lpSum(zs) <= 1
             m += pulp.LpAffineExpression([(z, 1.0) for z in zs] + users_expr) <= 0
+        # Each group's chosen user of the line needs an order with a supplier
+        # that offers it: valid for every integer plan, and it makes the
+        # relaxation pay (a share of) the order fees.
+        sellers = [(y[s], 1.0) for s in by_supplier]
+        for group_users in users_by_group[line].values():
+            m += pulp.LpAffineExpression(sellers + [(v, -1.0) for v in group_users.values()]) >= 0
         m += pulp.LpAffineExpression(qs + [(v, -a) for v, a in need_expr[line]]) >= 0, f"need_{l_i}"
+        if len(most[line]) == 1:
+            # A line of one group is needed by one chosen option at a time: its
+            # purchase costs at least that option's cheapest purchase. Valid
+            # for every integer plan; it keeps the relaxation from buying
+            # fractions of a high break at its low price.
+            floor = {}
+            for v, a in need_expr[line]:
+                floor[v.name] = (v, floor.get(v.name, (v, 0.0))[1] + a)
+            spend = [(q, off.unit_price) for _l, off, q in buy[first_buy:]]
+            least = [(v, -c) for v, c in ((v, cheapest_purchase(offers, ceil_units(a))) for v, a in floor.values()) if math.isfinite(c)]
+            m += pulp.LpAffineExpression(spend + least) >= 0, f"spend_{l_i}"
     cost = pulp.LpAffineExpression(cost_terms)
-    tie_expr = pulp.lpSum(tie)
+    tie_expr = pulp.LpAffineExpression(tie_terms)
 
     sol = _solver(solver, time_limit)
     # Lexicographic goals before cost: fewest changed roles, then fewest lines.
@@ -272,13 +397,13 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
         _run(m, sol, solver)
         if not _found(m, time_limit):
-            return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
+            return _infeasible(solver)
         proven = proven and m.sol_status == pulp.LpSolutionOptimal
         m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
     _run(m, sol, solver)
     if not _found(m, time_limit):
-        return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
+        return _infeasible(solver)
     proven = proven and m.sol_status == pulp.LpSolutionOptimal
     choice = {g: int(np.argmax([v.value() or 0.0 for v in vs])) for g, vs in x.items()}
     purchases = [

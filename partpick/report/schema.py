@@ -82,6 +82,7 @@ class OutputSpec(_Block):
 class StageSpec(_Block):
     bias_feed: Literal["resistor", "current_source", "auto"]
     bias_tracking: bool
+    bias_source_current_a: float | None
 
 
 class SupplySpec(_Block):

@@ -58,7 +58,7 @@ def test_ordinary_pair_bias_feed_numbers_by_hand(bench):
     assert row["rejected_by"] == "bias feed (s.3)"
     assert 1.5 * row["ib_peak_a"] == pytest.approx(0.15778, abs=2e-5)
     assert row["base_peak_v"] == pytest.approx(22.746, abs=1e-3)
-    reason = row["reason"]
+    reason = st.reason(row)
     assert "158 mA" in reason
     assert "R1 <= 4.78 ohm" in reason
     assert "1.8e+02 W" in reason
@@ -159,8 +159,8 @@ def test_every_feasible_configuration_passes_the_scalar_check(catalog, bench):
 def test_rejections_name_the_first_failing_constraint_with_numbers(bench):
     spec, pool, targets, st = bench
     assert len(st.rejected) > 0
-    assert st.rejected["reason"].str.len().min() > 20
-    heads = st.rejected[st.rejected["rejected_by"].str.startswith("transistor headroom")]
+    assert st.with_reasons(st.rejected)["reason"].str.len().min() > 20
+    heads = st.with_reasons(st.rejected[st.rejected["rejected_by"].str.startswith("transistor headroom")])
     for r in heads.itertuples(index=False):
         need = targets.v_peak_v + targets.i_peak_a * r.re_ohm + r.vce_sat_v
         assert need > r.rail_min_v
@@ -200,4 +200,4 @@ def test_spec_source_current_below_the_base_drive_is_named(catalog):
     assert not (st.configs["pair_i"] == pi).any()
     rej = st.rejected[(st.rejected["pair_i"] == pi) & (st.rejected["rejected_by"] == "bias feed (s.3)")]
     assert len(rej) > 0
-    assert "the spec fixes it at 50 mA, below the 135 mA needed" in rej["reason"].iloc[0]
+    assert "the spec fixes it at 50 mA, below the 135 mA needed" in st.reason(rej.iloc[0])

@@ -1,0 +1,84 @@
+"""What buying a line costs: its usable price breaks, the cheapest purchase, and when one line is no dearer.
+
+The buying rules are the MILP's (:mod:`partpick.optimize.milp`): at most one
+price break per supplier, each bought between its smallest quantity (the
+break or the MOQ, whichever is larger) and the stock; order fees are left
+to the caller.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+if TYPE_CHECKING:  # milp imports this module
+    from partpick.optimize.milp import Offer
+
+#: Needs above this many units are bounded by the cheapest unit price instead
+#: of the exact cheapest purchase (which is computed over every quantity).
+EXACT_NEED_MAX = 500
+
+
+def usable(offers: Iterable[Offer]) -> list[tuple[str, int, float, int]]:
+    """(supplier, smallest quantity, unit price, stock) of the offers that can be bought at all."""
+    out = []
+    for off in offers:
+        low = max(off.min_qty, off.moq, 1)
+        if low <= off.stock:
+            out.append((off.supplier, low, off.unit_price, off.stock))
+    return out
+
+
+def cheapest_purchase(offers: list[Offer], need: int) -> float:
+    """Lowest parts cost of at least ``need`` units of one line, order fees left out.
+
+    At most one price break per supplier, each bought between its smallest
+    quantity and its stock (the MILP's buying rules); a dynamic programme over
+    suppliers on the units held (capped at ``need``). Above
+    :data:`EXACT_NEED_MAX` units it returns the lower bound ``need x`` the
+    cheapest unit price instead. ``inf`` when the stock cannot cover the need.
+    """
+    rows = usable(offers)
+    if need <= 0:
+        return 0.0
+    if not rows:
+        return math.inf
+    if need > EXACT_NEED_MAX:
+        return need * min(p for _s, _low, p, _st in rows) if sum(st for *_x, st in rows) >= need else math.inf
+    best = np.full(need + 1, np.inf)
+    best[0] = 0.0
+    held = np.arange(need + 1)[:, None]
+    by_supplier: dict[str, list[tuple[int, float, int]]] = {}
+    for s, low, p, st in rows:
+        by_supplier.setdefault(s, []).append((low, p, st))
+    for s in sorted(by_supplier):
+        new = best.copy()
+        for low, p, st in by_supplier[s]:
+            q = np.arange(low, min(st, max(low, need)) + 1)[None, :]
+            reach = np.minimum(need, held + q)
+            np.minimum.at(new, reach.ravel(), (best[:, None] + p * q).ravel())
+        best = new
+    return float(best[need])
+
+
+def line_no_dearer(better: list[Offer], worse: list[Offer], need: int) -> bool:
+    """Whether every purchase of ``need`` units of line ``worse`` has one of ``better`` that costs no more.
+
+    True when each usable break of ``worse`` (supplier s, smallest quantity
+    m, price p, stock k) has a usable break of ``better`` at the same supplier
+    with smallest quantity <= m, price <= p and stock >= min(k, need): each
+    purchase then maps to the same quantity (or, when one break alone covers
+    the need, to max(smallest quantity, need)) at the same suppliers.
+    """
+    by_supplier: dict[str, list[tuple[int, float, int]]] = {}
+    for s, low, p, st in usable(better):
+        by_supplier.setdefault(s, []).append((low, p, st))
+    for s, low, p, st in usable(worse):
+        if not any(lb <= low and pb <= p and sb >= min(st, need) for lb, pb, sb in by_supplier.get(s, ())):
+            return False
+    return True
+
+

@@ -1,0 +1,393 @@
+"""Exact reductions of a :class:`~partpick.optimize.milp.Problem` before the MILP.
+
+Two reductions, each dropping only options that no optimal design uses, so
+the MILP on what is left has the same optimum and the same tie-break as on
+the whole problem:
+
+- **Dominance** (:func:`dominated`): option ``a`` of a group is dropped when
+  another option ``b`` of the same group comes earlier in the tie-break order
+  and is at least as good in every respect: every coupling coefficient, the
+  changes against a previous design, the parent options it suits (a superset),
+  the child options that suit it (a superset), the no-good cuts it is in (a
+  subset), and the order cost. For the cost, ``b`` must use the same roles
+  with the same units; each of its lines is either ``a``'s line or, when both
+  lines are private to the group (no other group uses them), a line that is
+  no dearer at any supplier (:func:`line_no_dearer`). Swapping ``a`` for ``b``
+  in any design then keeps it feasible, costs no more and lowers the
+  tie-break term, so an optimal design never holds ``a``.
+- **Cost bounds** (:func:`lower_bounds`): every option gets a lower bound on
+  the cost of any design that holds it (its own lines at their cheapest,
+  the cheapest compatible children and parent, the cheapest option of every
+  other group; couplings and order fees ignored). ``milp.solve`` solves the
+  problem restricted to the options below a threshold and widens the
+  threshold until the optimum found lies below it by more than the largest
+  tie-break term: then no left-out option can be part of an optimal design.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+
+import numpy as np
+
+from partpick.optimize.buying import cheapest_purchase, line_no_dearer, usable
+from partpick.optimize.milp import Coupling, Group, Problem
+
+#: Largest number of options compared pairwise in one block of a group.
+BLOCK_PAIRS = 4_000_000
+
+
+# --------------------------------------------------------------------------- restriction
+
+
+def restrict(problem: Problem, keep: dict[str, np.ndarray]) -> Problem:
+    """The problem with only the ``keep`` options (original indices, ascending) of each group.
+
+    Compat lists, couplings, forced options, no-good cuts and change costs are
+    renumbered; a cut that lost every option of one of its groups can no
+    longer be violated and is dropped.
+    """
+    new_index = {}
+    for g, grp in problem.groups.items():
+        idx = np.full(len(grp), -1, dtype=np.int64)
+        idx[keep[g]] = np.arange(len(keep[g]))
+        new_index[g] = idx
+    groups = {}
+    for g, grp in problem.groups.items():
+        k = keep[g]
+        compat = None
+        if grp.parent is not None:
+            remap = new_index[grp.parent]
+            compat = [_renumber(grp.compat[i], remap) for i in k]
+        groups[g] = Group(g, [grp.keys[i] for i in k], [grp.usage[i] for i in k], grp.parent, compat)
+    couplings = [Coupling(c.name, {g: np.asarray(coef)[keep[g]] for g, coef in c.terms.items()}, c.sense, c.rhs)
+                 for c in problem.couplings]
+    forbidden = []
+    for cut in problem.forbidden:
+        renumbered = {g: _renumber(np.asarray(opts, dtype=np.int64), new_index[g]).tolist() for g, opts in cut.items()}
+        if all(renumbered.values()):
+            forbidden.append(renumbered)
+    used = {line for grp in groups.values() for usage in grp.usage for line, _q, _r in usage}
+    return Problem(
+        groups=groups,
+        couplings=couplings,
+        line_offers={line: offers for line, offers in problem.line_offers.items() if line in used},
+        fees=problem.fees,
+        factor=problem.factor,
+        objective=problem.objective,
+        forced={g: int(new_index[g][o]) for g, o in problem.forced.items()},
+        forbidden=forbidden,
+        change_cost={g: np.asarray(c)[keep[g]] for g, c in problem.change_cost.items()},
+        change_weight=problem.change_weight,
+    )
+
+
+def _renumber(indices: np.ndarray, remap: np.ndarray) -> np.ndarray:
+    out = remap[np.asarray(indices, dtype=np.int64)]
+    return out[out >= 0]
+
+
+def compose(outer: dict[str, np.ndarray], inner: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """Original indices of a restriction of a restriction."""
+    return {g: outer[g][inner[g]] for g in outer}
+
+
+def forced_only(problem: Problem) -> dict[str, np.ndarray]:
+    """Every option, except in a group with a forced option: that one alone."""
+    return {g: np.array([problem.forced[g]]) if g in problem.forced else np.arange(len(grp))
+            for g, grp in problem.groups.items()}
+
+
+def _line_users(problem: Problem) -> dict[str, set[str]]:
+    users: dict[str, set[str]] = {}
+    for g, grp in problem.groups.items():
+        for usage in grp.usage:
+            for line, _q, _r in usage:
+                users.setdefault(line, set()).add(g)
+    return users
+
+
+def _units(problem: Problem, per_board: float) -> float:
+    return round(per_board * problem.factor, 6)
+
+
+# --------------------------------------------------------------------------- cost bounds
+
+
+def option_costs(problem: Problem) -> dict[str, np.ndarray]:
+    """A lower bound on what each option adds to the order (fees left out).
+
+    A line only this group uses costs at least its cheapest purchase of the
+    option's units; a line several groups share at least the units times its
+    cheapest unit price (the need of a shared line is the sum of its users').
+    With ``change_weight``, the weighted changes are added.
+    """
+    users = _line_users(problem)
+    memo: dict[tuple[str, int], float] = {}
+    pmin = {line: min((p for _s, _low, p, _st in usable(offers)), default=math.inf)
+            for line, offers in problem.line_offers.items()}
+    out = {}
+    for g, grp in problem.groups.items():
+        cost = np.zeros(len(grp))
+        for o, usage in enumerate(grp.usage):
+            need: dict[str, float] = {}
+            for line, per_board, _role in usage:
+                need[line] = need.get(line, 0.0) + _units(problem, per_board)
+            total = 0.0
+            for line, units in need.items():
+                if len(users[line]) == 1:
+                    key = (line, math.ceil(units))
+                    if key not in memo:
+                        memo[key] = cheapest_purchase(problem.line_offers.get(line, []), key[1])
+                    total += memo[key]
+                else:
+                    total += units * pmin.get(line, math.inf)
+            cost[o] = total
+        if problem.change_weight is not None and g in problem.change_cost:
+            cost += problem.change_weight * np.asarray(problem.change_cost[g], float)
+        out[g] = cost
+    return out
+
+
+def _children(problem: Problem) -> dict[str, list[str]]:
+    kids: dict[str, list[str]] = {g: [] for g in problem.groups}
+    for g, grp in problem.groups.items():
+        if grp.parent is not None:
+            kids[grp.parent].append(g)
+    return kids
+
+
+def _depth(problem: Problem, g: str) -> int:
+    d = 0
+    while problem.groups[g].parent is not None:
+        g = problem.groups[g].parent
+        d += 1
+    return d
+
+
+def _root(problem: Problem, g: str) -> str:
+    while problem.groups[g].parent is not None:
+        g = problem.groups[g].parent
+    return g
+
+
+def compat_pairs(grp: Group) -> tuple[np.ndarray, np.ndarray]:
+    """(parent option, child option) of every compatible pair of a child group, as two arrays."""
+    lengths = np.array([len(c) for c in grp.compat], dtype=np.int64)
+    parents = np.concatenate([np.asarray(c, dtype=np.int64) for c in grp.compat]) if lengths.sum() else np.zeros(0, np.int64)
+    return parents, np.repeat(np.arange(len(grp)), lengths)
+
+
+def _min_over_children(problem: Problem, child: str, value: np.ndarray) -> np.ndarray:
+    """For each parent option, the least ``value`` among the child options that suit it (inf if none)."""
+    grp = problem.groups[child]
+    parents, kids = compat_pairs(grp)
+    out = np.full(len(problem.groups[grp.parent]), np.inf)
+    np.minimum.at(out, parents, value[kids])
+    return out
+
+
+def _min_over_parents(problem: Problem, child: str, value: np.ndarray) -> np.ndarray:
+    """For each child option, the least ``value`` among the parent options it suits (inf if none)."""
+    grp = problem.groups[child]
+    parents, kids = compat_pairs(grp)
+    out = np.full(len(grp), np.inf)
+    np.minimum.at(out, kids, value[parents])
+    return out
+
+
+def lower_bounds(problem: Problem) -> dict[str, np.ndarray]:
+    """For each option, a lower bound on the cost of any feasible design that holds it.
+
+    ``full(o)`` is the option's own cost plus, for each child group, the least
+    ``full`` among the child options that suit it (bottom-up over the compat
+    tree). A root option's bound is its ``full`` plus the least ``full`` of
+    every other root group; a child of a root adds the least, over the parent
+    options it suits, of the parent's ``full`` without this child group's
+    share. Deeper groups leave their ancestors out (costs are not negative).
+    ``inf`` marks options that cannot be part of any design (no compatible
+    child in some child group, or a line that cannot be bought).
+    """
+    own = option_costs(problem)
+    kids = _children(problem)
+    full: dict[str, np.ndarray] = {}
+    share: dict[str, np.ndarray] = {}  # child group -> its contribution to each parent option
+    for g in sorted(problem.groups, key=lambda name: -_depth(problem, name)):
+        total = own[g].copy()
+        for h in kids[g]:
+            share[h] = _min_over_children(problem, h, full[h])
+            total = total + share[h]
+        full[g] = total
+    roots = [g for g, grp in problem.groups.items() if grp.parent is None]
+    best = {r: float(full[r].min()) if len(full[r]) else math.inf for r in roots}
+    out = {}
+    for g, grp in problem.groups.items():
+        root = _root(problem, g)
+        others = sum(v for r, v in best.items() if r != root)
+        bound = full[g] + others
+        if grp.parent is not None and grp.parent == root:
+            with np.errstate(invalid="ignore"):
+                rest = np.where(np.isfinite(full[root]), full[root] - share[g], np.inf)
+            bound = bound + _min_over_parents(problem, g, rest)
+        out[g] = bound
+    return out
+
+
+# --------------------------------------------------------------------------- dominance
+
+
+def dominated(problem: Problem, rank: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """Options no dominated option of their group is kept for; see the module docstring.
+
+    ``rank`` is each option's place in the tie-break order. Pairs are compared
+    within blocks of options that use the same roles with the same units and
+    the same shared lines, and either the same private lines or, when the
+    block is small enough, any private lines; every pair compared is checked
+    in full, so the blocks only limit how much is found, never its exactness.
+    Returns the kept options (indices, ascending) of each group.
+    """
+    users = _line_users(problem)
+    kids = _children(problem)
+    keep = {}
+    for g, grp in problem.groups.items():
+        view = _GroupView(problem, g, kids[g], users)
+        drop = np.zeros(len(grp), dtype=bool)
+        for a, b in view.candidate_pairs(rank[g]):
+            hit = view.dominates(b, a)
+            drop[a[hit]] = True
+        keep[g] = np.flatnonzero(~drop)
+    return keep
+
+
+class _GroupView:
+    """One group's options as arrays for pairwise dominance tests."""
+
+    def __init__(self, problem: Problem, g: str, children: list[str], users: dict[str, set[str]]):
+        grp = problem.groups[g]
+        n = len(grp)
+        self.problem, self.g, self.n = problem, g, n
+        cols = [np.asarray(c.terms[g], float) * (1.0 if c.sense == ">=" else -1.0) for c in problem.couplings if g in c.terms]
+        if g in problem.change_cost:
+            cols.append(-np.asarray(problem.change_cost[g], float))
+        self.better = np.stack(cols, axis=1) if cols else np.zeros((n, 0))
+        self.cuts = np.array([[o in set(cut.get(g, ())) for cut in problem.forbidden] for o in range(n)], dtype=bool).reshape(n, -1)
+        self.parent_sets = _packed_parent_sets(problem, g) if grp.parent is not None else None
+        self.child_sets = [_packed_child_sets(problem, h) for h in children]
+        self._usage(users)
+        self.offers_memo: dict[tuple[str, str, int], bool] = {}
+
+    def _usage(self, users: dict[str, set[str]]) -> None:
+        """Per option: a block id (roles, units, shared lines) and its private lines in role order."""
+        p, g = self.problem, self.g
+        block_of: dict[tuple, int] = {}
+        self.block = np.empty(self.n, dtype=np.int64)
+        private_rows: list[tuple[str, ...]] = []
+        needs: list[tuple[int, ...]] = []
+        for o, usage in enumerate(p.groups[g].usage):
+            items: dict[str, list] = {}
+            for line, per_board, role in usage:
+                item = items.setdefault(line, [0.0, role])
+                item[0] += _units(p, per_board)
+            ordered = sorted(items.items(), key=lambda kv: (kv[1][1], kv[0]))
+            shared = tuple((line, q, r) if users[line] != {g} else ("", q, r) for line, (q, r) in ordered)
+            block_of.setdefault(shared, len(block_of))
+            self.block[o] = block_of[shared]
+            private_rows.append(tuple(line for line, _ in ordered if users[line] == {g}))
+            needs.append(tuple(math.ceil(q) for line, (q, _r) in ordered if users[line] == {g}))
+        names = sorted({line for row in private_rows for line in row})
+        code = {line: i for i, line in enumerate(names)}
+        width = max((len(r) for r in private_rows), default=0)
+        self.private = np.full((self.n, width), -1, dtype=np.int64)
+        self.need = np.zeros((self.n, width), dtype=np.int64)
+        for o, (row, need) in enumerate(zip(private_rows, needs)):
+            self.private[o, : len(row)] = [code[line] for line in row]
+            self.need[o, : len(need)] = need
+        self.line_names = names
+        self.line_key = np.unique(self.private, axis=0, return_inverse=True)[1].ravel() if width else np.zeros(self.n, dtype=np.int64)
+
+    def candidate_pairs(self, rank: np.ndarray) -> Iterable[tuple[np.ndarray, np.ndarray]]:
+        """(a, b) index arrays with b earlier in the tie-break order, in blocks of bounded size."""
+        for block in _split(self.block):
+            members = block if len(block) ** 2 <= BLOCK_PAIRS else None
+            groups = [block] if members is not None else _split(self.line_key[block], block)
+            for m in groups:
+                for chunk in _chunks(m, BLOCK_PAIRS // max(len(m), 1)):
+                    a = np.repeat(chunk, len(m))
+                    b = np.tile(m, len(chunk))
+                    later = rank[b] < rank[a]
+                    yield a[later], b[later]
+
+    def dominates(self, b: np.ndarray, a: np.ndarray) -> np.ndarray:
+        """Whether option ``b[i]`` dominates option ``a[i]`` (same block, any rank)."""
+        ok = np.all(self.better[b] >= self.better[a] - 1e-12, axis=1)
+        if self.cuts.shape[1]:
+            ok &= ~np.any(self.cuts[b] & ~self.cuts[a], axis=1)
+        ok &= self._lines_ok(b, a, ok)
+        if self.parent_sets is not None:
+            ok[ok] = _subset(self.parent_sets, a[ok], b[ok])
+        for sets in self.child_sets:
+            ok[ok] = _subset(sets, a[ok], b[ok])
+        return ok
+
+    def _lines_ok(self, b: np.ndarray, a: np.ndarray, ok: np.ndarray) -> np.ndarray:
+        """``ok`` where every private line of ``b`` is ``a``'s own or no dearer than it."""
+        out = ok.copy()
+        if not self.private.shape[1]:
+            return out
+        lb, la = self.private[b], self.private[a]
+        rows, cols = np.nonzero((lb != la) & out[:, None])
+        if not len(rows):
+            return out
+        triples = np.stack([lb[rows, cols], la[rows, cols], self.need[a[rows], cols]], axis=1)
+        unique, inverse = np.unique(triples, axis=0, return_inverse=True)
+        fine = np.array([self._no_dearer(*map(int, t)) for t in unique], dtype=bool)
+        out[rows[~fine[inverse.ravel()]]] = False
+        return out
+
+    def _no_dearer(self, better: int, worse: int, need: int) -> bool:
+        """:func:`line_no_dearer` of two private lines (by code), memoised."""
+        key = (self.line_names[better], self.line_names[worse], need)
+        if key not in self.offers_memo:
+            offers = self.problem.line_offers
+            self.offers_memo[key] = line_no_dearer(offers.get(key[0], []), offers.get(key[1], []), need)
+        return self.offers_memo[key]
+
+
+def _split(labels: np.ndarray, items: np.ndarray | None = None) -> list[np.ndarray]:
+    """``items`` (default 0..n-1) grouped by equal ``labels``."""
+    items = np.arange(len(labels)) if items is None else items
+    order = np.argsort(labels, kind="stable")
+    cuts = np.flatnonzero(np.diff(labels[order])) + 1
+    return [items[part] for part in np.split(order, cuts)] if len(labels) else []
+
+
+def _chunks(items: np.ndarray, size: int) -> list[np.ndarray]:
+    size = max(size, 1)
+    return [items[i : i + size] for i in range(0, len(items), size)]
+
+
+def _packed_parent_sets(problem: Problem, g: str) -> np.ndarray:
+    """Row per option of ``g``: the parent options it suits, as packed bits."""
+    grp = problem.groups[g]
+    parents, kids = compat_pairs(grp)
+    bits = np.zeros((len(grp), len(problem.groups[grp.parent])), dtype=bool)
+    bits[kids, parents] = True
+    return np.packbits(bits, axis=1)
+
+
+def _packed_child_sets(problem: Problem, child: str) -> np.ndarray:
+    """Row per option of the parent group: the options of ``child`` that suit it, as packed bits."""
+    grp = problem.groups[child]
+    parents, kids = compat_pairs(grp)
+    bits = np.zeros((len(problem.groups[grp.parent]), len(grp)), dtype=bool)
+    bits[parents, kids] = True
+    return np.packbits(bits, axis=1)
+
+
+def _subset(sets: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Whether set ``a[i]`` is a subset of set ``b[i]`` (rows of packed bits)."""
+    out = np.empty(len(a), dtype=bool)
+    for part in _chunks(np.arange(len(a)), max(1, 50_000_000 // max(sets.shape[1], 1))):
+        out[part] = ~np.any(sets[a[part]] & ~sets[b[part]], axis=1)
+    return out

@@ -1,0 +1,155 @@
+"""The exact reductions before the MILP (partpick.optimize.prune, .buying).
+
+Independent routes: the brute force of ``test_milp_exhaustive`` (every
+combination, exact pricing per supplier subset), the unpruned MILP, and the
+test module's own line pricer (a dynamic programme written apart from
+:func:`partpick.optimize.buying.cheapest_purchase`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from partpick.optimize import prune
+from partpick.optimize.buying import cheapest_purchase, line_no_dearer
+from partpick.optimize.milp import Coupling, Group, Offer, Problem, check_choice, solve, tie_weights
+from optimize.test_milp_exhaustive import SETTINGS, brute_force, cheapest_line_cost, distinct_lines, problems
+
+COST_TOL = 1e-6
+
+
+@settings(**SETTINGS)
+@given(problems(), st.sampled_from(["cost", "lines"]), st.sampled_from(["cbc", "highs"]))
+def test_pruned_and_unpruned_milp_agree_with_brute_force(problem: Problem, objective: str, solver: str) -> None:
+    problem = replace(problem, objective=objective)
+    exact = brute_force(problem)
+    pruned, whole = solve(problem, solver), solve(problem, solver, prune=False)
+    if exact is None:
+        assert pruned.status == whole.status == "infeasible"
+        return
+    assert pruned.status == whole.status == "optimal"
+    if objective == "cost":
+        assert pruned.total == pytest.approx(exact.cost, abs=COST_TOL)
+    else:
+        # Fewest lines as the brute force; the cost within that is compared
+        # route to route only (test_milp_exhaustive checks it against the brute force).
+        assert distinct_lines(pruned) == distinct_lines(whole) == exact.lines
+    assert pruned.total == pytest.approx(whole.total, abs=COST_TOL)
+    # The reductions keep the tie-break: the very same choice.
+    assert pruned.choice == whole.choice
+
+
+@settings(**SETTINGS)
+@given(problems(), st.sampled_from([0.5, 3.0]))
+def test_pruning_with_weighted_changes_keeps_the_optimum(problem: Problem, weight: float) -> None:
+    changes = {g: np.arange(len(grp), dtype=float) % 2 for g, grp in problem.groups.items()}
+    problem = replace(problem, change_cost=changes, change_weight=weight)
+    pruned, whole = solve(problem, "cbc"), solve(problem, "cbc", prune=False)
+    assert pruned.status == whole.status
+    if whole.status == "optimal":
+        assert pruned.total == pytest.approx(whole.total, abs=COST_TOL)
+        assert pruned.choice == whole.choice
+
+
+@settings(**SETTINGS)
+@given(problems())
+def test_lower_bounds_never_exceed_a_design_holding_the_option(problem: Problem) -> None:
+    bounds = prune.lower_bounds(problem)
+    for g, grp in problem.groups.items():
+        for o in range(len(grp)):
+            forced = replace(problem, forced={**problem.forced, g: o}) if g not in problem.forced else problem
+            if g in problem.forced and problem.forced[g] != o:
+                continue
+            best = brute_force(forced, "cost")
+            if best is not None:
+                assert bounds[g][o] <= best.cost + 1e-9, (g, o)
+
+
+@settings(**SETTINGS)
+@given(problems())
+def test_dominated_options_are_in_no_optimal_design(problem: Problem) -> None:
+    keep = prune.dominated(problem, tie_weights(problem))
+    exact = brute_force(problem, "cost")
+    for g, grp in problem.groups.items():
+        assert set(keep[g].tolist()) <= set(range(len(grp)))
+        if exact is not None:
+            assert exact.choice[g] in keep[g] or _ties(problem, exact, g, keep[g])
+
+
+def _ties(problem: Problem, exact, g: str, kept: np.ndarray) -> bool:
+    """Whether a design with a kept option of ``g`` reaches the brute-force optimum too."""
+    best = math.inf
+    for o in kept:
+        forced = replace(problem, forced={**problem.forced, g: int(o)})
+        found = brute_force(forced, "cost")
+        best = min(best, found.cost if found else math.inf)
+    return best <= exact.cost + COST_TOL
+
+
+@settings(**SETTINGS)
+@given(
+    st.lists(st.tuples(st.sampled_from(["S0", "S1"]), st.integers(1, 12), st.integers(5, 300), st.sampled_from([0, 3, 8, 40]), st.sampled_from([1, 5])), min_size=1, max_size=5),
+    st.integers(1, 20),
+)
+def test_cheapest_purchase_matches_an_independent_pricer(rows, need: int) -> None:
+    offers = [Offer(s, q, c / 100.0, stock, moq) for s, q, c, stock, moq in rows]
+    expected = cheapest_line_cost(offers, need, frozenset({"S0", "S1"}))
+    assert cheapest_purchase(offers, need) == pytest.approx(expected, abs=1e-9)
+
+
+def _two_option_problem(offers_b: list[Offer], coef_b: float) -> Problem:
+    """One group, option a (key 'b-...', later in the order) and option b (key 'a-...'), each on its own line."""
+    offers_a = [Offer("S0", 1, 1.00, 50, 1), Offer("S1", 10, 0.80, 50, 1)]
+    grp = Group("g", ["b-option", "a-option"], [[("LA", 2.0, "r")], [("LB", 2.0, "r")]])
+    other = Group("h", ["h0", "h1"], [[("LH", 1.0, "s")], [("LH", 1.0, "s")]])
+    c = Coupling("need", {"g": np.array([1.0, coef_b]), "h": np.array([0.0, 1.0])}, ">=", 1.0)
+    return Problem({"g": grp, "h": other}, [c], {"LA": offers_a, "LB": offers_b, "LH": [Offer("S0", 1, 0.1, 50, 1)]},
+                   {"S0": 1.0, "S1": 2.0}, 3.0)
+
+
+def test_an_option_no_dearer_anywhere_and_no_worse_dominates() -> None:
+    p = _two_option_problem([Offer("S0", 1, 0.90, 50, 1), Offer("S1", 5, 0.80, 60, 1)], 1.0)
+    keep = prune.dominated(p, tie_weights(p))
+    assert keep["g"].tolist() == [1]  # option 0 (later key) is dominated by option 1
+    assert solve(p).choice == solve(p, prune=False).choice == {"g": 1, "h": 0}
+
+
+@pytest.mark.parametrize(
+    "offers_b, coef_b",
+    [
+        ([Offer("S0", 1, 0.90, 50, 1)], 1.0),  # not offered by S1: dearer where S1 is the only good source
+        ([Offer("S0", 1, 1.10, 50, 1), Offer("S1", 5, 0.50, 60, 1)], 1.0),  # dearer at S0
+        ([Offer("S0", 1, 0.90, 2, 1), Offer("S1", 5, 0.50, 60, 1)], 1.0),  # S0 stock below the need of 6
+        ([Offer("S0", 1, 0.90, 50, 1), Offer("S1", 5, 0.50, 60, 1)], 0.0),  # worse coupling coefficient
+    ],
+)
+def test_no_dominance_when_one_respect_is_worse(offers_b: list[Offer], coef_b: float) -> None:
+    p = _two_option_problem(offers_b, coef_b)
+    assert prune.dominated(p, tie_weights(p))["g"].tolist() == [0, 1]
+
+
+def test_line_no_dearer_by_hand() -> None:
+    worse = [Offer("S0", 10, 0.5, 100, 1)]
+    assert line_no_dearer([Offer("S0", 1, 0.5, 100, 1)], worse, 8)
+    assert not line_no_dearer([Offer("S0", 20, 0.4, 100, 1)], worse, 8)  # larger smallest quantity
+    assert not line_no_dearer([Offer("S1", 1, 0.1, 100, 1)], worse, 8)  # another supplier
+    assert line_no_dearer([Offer("S0", 1, 0.5, 8, 1)], worse, 8)  # stock covers the need
+    assert not line_no_dearer([Offer("S0", 1, 0.5, 7, 1)], worse, 8)
+
+
+def test_restrict_renumbers_compat_cuts_and_forced() -> None:
+    parent = Group("p", ["p0", "p1", "p2"], [[], [], []])
+    child = Group("c", ["c0", "c1"], [[], []], parent="p", compat=[np.array([0, 2]), np.array([1])])
+    p = Problem({"p": parent, "c": child}, [], {}, {"S": 0.0}, 1.0, forced={"c": 0},
+                forbidden=[{"p": [1], "c": [0]}, {"p": [2], "c": [0]}])
+    sub = prune.restrict(p, {"p": np.array([0, 2]), "c": np.array([0, 1])})
+    assert [c.tolist() for c in sub.groups["c"].compat] == [[0, 1], []]
+    assert sub.forbidden == [{"p": [1], "c": [0]}]  # the cut on dropped p1 can no longer bite
+    assert sub.forced == {"c": 0}
+    assert check_choice(sub, {"p": 1, "c": 0}) == []
