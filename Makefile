@@ -23,7 +23,7 @@ test: $(STAMP)
 	$(PY) -m pytest
 
 bench: $(STAMP)
-	$(PY) tests/bench/bench_design.py
+	$(PY) tests/bench/bench_design.py --sizes small,medium --repeat 1 --solve-limit 120
 
 clean:
 	rm -rf $(VENV) build *.egg-info
