@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from partpick.evaluate.context import Pool, Targets, quiescent_a
+from partpick.evaluate.stage import ccs_pair_current_bounds_a
 from partpick.model import bias, dissipation, opamp, regulator, soa, swing, thermal
 from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
@@ -102,8 +103,7 @@ def check_selection(
         assert ccs is not None
         r_e, r_ref = feed_values
         vref = ccs["vref_v"]
-        vbe_s = max(float(swing.vbe_at_v(t["vbe_on_v"], t["vbe_on_at_a"], 0.01)) for t in ccs["transistors"])
-        standing = (vref - vbe_s) / r_e
+        i_lo, standing = (float(x) for x in ccs_pair_current_bounds_a(vref, r_e, *((t["vbe_on_v"], t["vbe_on_at_a"]) for t in ccs["transistors"])))
         p_t = float(swing.ccs_transistor_dissipation_w(vs_max, standing))
     on_sink = feed == "current_source" and ccs["mount"] == "heatsink"
 
@@ -174,7 +174,7 @@ def check_selection(
         p_feed_w = p_r1
     else:
         m["bias_source_transistor"] = [
-            Margin("current at the peak", standing - BASE_DRIVE_MARGIN * ib, "A", BASE_DRIVE_MARGIN * ib),
+            Margin("current at the peak", i_lo - BASE_DRIVE_MARGIN * ib, "A", BASE_DRIVE_MARGIN * ib),
             Margin("compliance", float(swing.ccs_compliance_margin_v(vs_min, base_pk)), "V", 1.0),
         ]
         for t in ccs["transistors"]:

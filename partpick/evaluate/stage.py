@@ -542,7 +542,10 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     case temperature that peak gives; in free air the case is taken at the
     junction temperature; the sink limits of a variant are computed at the
     largest current any usable resistor family gives it; the free-air Rth_ja
-    is the larger of the pair's two.
+    is the larger of the pair's two; the source's current is bracketed
+    (:func:`~partpick.model.swing.ccs_current_bounds_a`, Vbe rising with the
+    current): the base drive is checked at the lower bound, heat, reference
+    loading and the bias-diode rating at the upper one.
     """
     small = pair_options(pool, "complement")
     # Small-signal and driver pairs serve as current sources; power pairs do not.
@@ -564,21 +567,23 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
         dev = _ccs_device(s, spec)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
         mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
+        vbe_req = dev["vbe"](i_req)
         for d_i, per, vref, if_max in refs:
-            if vref - dev["vbe_v"] < CCS_MIN_RE_DROP_V:
+            room = vref - vbe_req >= CCS_MIN_RE_DROP_V
+            if not room.any():
                 continue
             per_fam = []
             for f in fams.itertuples(index=False):
-                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, dev["vbe_v"], i_req), f.series, f.value_min, f.value_max), float)
+                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe_req, i_req), f.series, f.value_min, f.value_max), float)
                 with np.errstate(divide="ignore", invalid="ignore"):
-                    i_act = (vref - dev["vbe_v"]) / r_e
+                    i_lo, i_act = dev["current"](vref, r_e)
                     i_ref = swing.ccs_reference_current_a(i_act, dev["hfe"](i_act))
                     r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(rail_min, vref, i_ref), f.series, f.value_min, f.value_max), float)
                     i_ref_max = (rail_max - vref) / r_ref
                     p_e = i_act**2 * r_e
                     p_ref = (rail_max - vref) ** 2 / r_ref
                 fits = (
-                    compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref) & (i_act >= i_need)
+                    room & compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref) & (i_lo >= i_need)
                     & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
                     & (f.power_w >= RESISTOR_POWER_MARGIN * p_e) & (f.power_w >= RESISTOR_POWER_MARGIN * p_ref)
                 )
@@ -616,7 +621,8 @@ def _ccs_device(s, spec: Spec) -> dict:
     bp_v, bp_a = soa.pad_curves(curves)
     tj_max = pick("tj_max_c", min)
     return dict(
-        vbe_v=max(float(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, 0.01)), float(swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, 0.01))),
+        vbe=lambda i: np.maximum(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, i), swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, i)),
+        current=lambda vref, r_e: ccs_pair_current_bounds_a(vref, r_e, (s.vbe_on_v_n, s.vbe_on_at_a_n), (s.vbe_on_v_p, s.vbe_on_at_a_p)),
         hfe=lambda i: np.minimum(swing.hfe_at(s.hfe_min_n, s.hfe_at_a_n, i), swing.hfe_at(s.hfe_min_p, s.hfe_at_a_p, i)),
         vceo_v=pick("vceo_v", min), ic_max_a=pick("ic_max_a", min), tj_max_c=tj_max,
         tj_limit_c=tj_max - spec.thermal.tj_derate_c, rth_jc_k_w=pick("rth_jc_k_w", max),
@@ -626,6 +632,12 @@ def _ccs_device(s, spec: Spec) -> dict:
                                                        np.array([s.ic_max_a_n, s.ic_max_a_p]), np.array([s.pd_max_w_n, s.pd_max_w_p]),
                                                        np.array([s.vceo_v_n, s.vceo_v_p])), axis=0),
     )
+
+
+def ccs_pair_current_bounds_a(v_ref_v, r_e_ohm, *vbe_data: tuple[float, float]) -> tuple[np.ndarray, np.ndarray]:
+    """(least lower bound, largest upper bound) of a source pair's currents (:func:`swing.ccs_current_bounds_a`)."""
+    bounds = [swing.ccs_current_bounds_a(v_ref_v, r_e_ohm, v, at) for v, at in vbe_data]
+    return np.minimum.reduce([b[0] for b in bounds]), np.maximum.reduce([b[1] for b in bounds])
 
 
 def _ccs_soa_util(dev: dict, rail_max: np.ndarray, i_a: np.ndarray) -> np.ndarray:

@@ -433,6 +433,42 @@ def ccs_reference_current_a(
     return _f(i_diode_a) + _f(i_ccs_a) / _f(hfe)
 
 
+def ccs_current_bounds_a(
+    v_ref_v: npt.ArrayLike,
+    r_e_ohm: npt.ArrayLike,
+    vbe_on_v: npt.ArrayLike,
+    vbe_on_at_a: npt.ArrayLike,
+) -> tuple[FloatOrArray, FloatOrArray]:
+    """Bounds on the current of a source set by ``R_E``: ``I = (Vref - Vbe(I)) / R_E``.
+
+    Vbe grows with the current (model s.13: ``max(vbe_on, vbe_on + VT ln(I / I_on))``),
+    so ``I_hi = (Vref - vbe_on) / R_E`` is an upper bound (Vbe never below
+    vbe_on) and ``I_lo = (Vref - Vbe(I_hi)) / R_E`` a lower bound (Vbe at a
+    current no smaller than the true one). The drive check uses ``I_lo``;
+    dissipation, reference loading and the bias-diode rating use ``I_hi``
+    (both conservative).
+
+    Parameters
+    ----------
+    v_ref_v : reference voltage [V]
+    r_e_ohm : emitter resistor [ohm], > 0
+    vbe_on_v, vbe_on_at_a : the source transistor's Vbe and its test current [V], [A]
+
+    Returns
+    -------
+    (I_lo, I_hi) [A].
+
+    Examples
+    --------
+    >>> lo, hi = ccs_current_bounds_a(1.8, 6.8, 0.65, 0.01)
+    >>> round(float(hi) * 1e3, 1), round(float(lo) * 1e3, 1)
+    (169.1, 158.3)
+    """
+    hi = (_f(v_ref_v) - _f(vbe_on_v)) / _f(r_e_ohm)
+    lo = (_f(v_ref_v) - vbe_at_v(vbe_on_v, vbe_on_at_a, hi)) / _f(r_e_ohm)
+    return lo, hi
+
+
 def ccs_emitter_resistor_ohm(
     v_ref_v: npt.ArrayLike, vbe_v: npt.ArrayLike, i_ccs_a: npt.ArrayLike
 ) -> FloatOrArray:

@@ -162,3 +162,27 @@ def test_ccs_reference_current_float_and_array():
     assert sw.ccs_reference_current_a(0.147, 60.0) == pytest.approx(0.00445)
     np.testing.assert_allclose(sw.ccs_reference_current_a([0.01, 0.1], [100.0, 50.0], 0.001),
                                [0.0011, 0.003])
+
+
+@pytest.mark.parametrize("vref, r_e, vbe_on, at", [
+    (1.8, 6.8, 0.65, 0.01),    # red LED, TO-92-like device run far above its Vbe test current
+    (1.3, 65.0, 0.65, 0.01),   # two diodes, 10 mA: Vbe stays at its floor
+    (2.0, 8.2, 0.8, 0.15),     # green LED, driver-class device
+])
+def test_ccs_current_bounds_bracket_the_true_current(vref, r_e, vbe_on, at):
+    # Independent route: solve I = (Vref - Vbe(I)) / R_E by root finding (scipy brentq).
+    from scipy.optimize import brentq
+
+    true = brentq(lambda i: i - (vref - sw.vbe_at_v(vbe_on, at, i)) / r_e, 1e-9, vref / r_e)
+    lo, hi = sw.ccs_current_bounds_a(vref, r_e, vbe_on, at)
+    assert lo <= true + 1e-12 <= hi + 2e-12
+    assert hi == pytest.approx((vref - vbe_on) / r_e)
+    # The lower bound is close: it errs by Vbe(hi) - Vbe(true) <= VT ln(hi / true) only.
+    assert (true - lo) * r_e <= 0.026 * np.log(hi / true) + 1e-9
+
+
+def test_ccs_current_bounds_float_and_array():
+    lo, hi = sw.ccs_current_bounds_a(np.array([1.8, 1.3]), np.array([6.8, 65.0]), 0.65, 0.01)
+    np.testing.assert_allclose(hi, [1.15 / 6.8, 0.01])
+    assert lo[1] == pytest.approx(0.01)  # at its test current Vbe is exactly vbe_on
+    assert lo[0] < hi[0]
