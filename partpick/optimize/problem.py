@@ -66,22 +66,25 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     pairs, rails = stage.pairs, stage.rails
     dio = pool.diodes
 
-    # --- stage group
+    # --- stage group (built from arrays: one Python step per configuration, no frame lookups)
+    pair_i = k["pair_i"].to_numpy(int)
+    mpn_n, mpn_p = pairs["mpn_n"].to_numpy()[pair_i], pairs["mpn_p"].to_numpy()[pair_i]
+    tr_mpn, dio_mpn = tr["mpn"].to_numpy(), dio["mpn"].to_numpy()
+    ccs = (k["feed"] == "current_source").to_numpy()
+    src_n = np.where(ccs, tr_mpn[np.where(ccs, k["ccs_n_i"].to_numpy(int), 0)], None)
+    src_p = np.where(ccs, tr_mpn[np.where(ccs, k["ccs_p_i"].to_numpy(int), 0)], None)
+    ref = np.where(ccs, dio_mpn[np.where(ccs, k["ref_i"].to_numpy(int), 0)], None) if len(dio) else np.full(len(k), None)
+    ref_units = 2 * ch * k["ref_per_source"].to_numpy(int)
+    rail_i = k["rail_i"].to_numpy(int)
+    rail_usage = {i: _rail_usage(rails.iloc[i].to_dict(), use) for i in np.unique(rail_i).tolist()}
     usage = []
-    for row in k.itertuples(index=False):
-        p = pairs.iloc[row.pair_i]
-        u = [use(p["mpn_n"], None, ch, "output_npn"), use(p["mpn_p"], None, ch, "output_pnp")]
-        if row.feed == "current_source":
-            u += [use(tr.at[row.ccs_p_i, "mpn"], None, ch, "bias_source_transistor"),
-                  use(tr.at[row.ccs_n_i, "mpn"], None, ch, "bias_source_transistor"),
-                  use(dio.at[row.ref_i, "mpn"], None, 2 * ch * row.ref_per_source, "bias_source_reference")]
-        r = rails.iloc[row.rail_i]
-        if r["regulated"]:
-            u.append(use(r["reg_mpn"], None, 1, "regulator"))
-            if isinstance(r["reg_family"], str):
-                u += [use(r["reg_family"], r["reg_r1_ohm"], 1, "regulator_set_resistor"),
-                      use(r["reg_family"], r["reg_r2_ohm"], 1, "regulator_set_resistor")]
-        usage.append(u)
+    for j in range(len(k)):
+        u = [use(mpn_n[j], None, ch, "output_npn"), use(mpn_p[j], None, ch, "output_pnp")]
+        if ccs[j]:
+            u += [use(src_p[j], None, ch, "bias_source_transistor"),
+                  use(src_n[j], None, ch, "bias_source_transistor"),
+                  use(ref[j], None, float(ref_units[j]), "bias_source_reference")]
+        usage.append(u + rail_usage[rail_i[j]])
     groups["stage"] = Group("stage", list(k["key"]), usage)
     tables["stage"] = k
 
@@ -184,13 +187,17 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     k_src_pkg = k["ccs_package"].to_numpy()
     k_devices = k["sink_devices"].to_numpy(int)
     class_of = {(-1.0 if math.isnan(c) else c): i for i, c in enumerate(stage.rth_cs_classes)}
-    hs_compat = [
-        np.flatnonzero(
-            (stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & np.isin(k_pkg, list(mounts))
-            & ((k_src_pkg == "") | np.isin(k_src_pkg, list(mounts))) & (k_devices <= n_max)
-        )
-        for r, c, mounts, n_max in zip(hs["rth_sa_k_w"], hs["rth_class"], hs["mounts"], hs["max_devices"])
-    ]
+    # Packages as codes, so each sink's test is a lookup instead of a string search per configuration.
+    names = sorted(set(k_pkg) | set(k_src_pkg) - {""})
+    code = {p: i for i, p in enumerate(names)}
+    k_pkg_c = np.array([code[p] for p in k_pkg], dtype=int)
+    k_src_c = np.array([code.get(p, -1) for p in k_src_pkg], dtype=int)
+    hs_compat = []
+    for r, c, mounts, n_max in zip(hs["rth_sa_k_w"], hs["rth_class"], hs["mounts"], hs["max_devices"]):
+        holds = np.array([p in mounts for p in names] + [True], dtype=bool)  # index -1: no source on the sink
+        hs_compat.append(np.flatnonzero(
+            (stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & holds[k_pkg_c] & holds[k_src_c] & (k_devices <= n_max)
+        ))
     keep = [i for i, c in enumerate(hs_compat) if len(c)]
     hs = hs.iloc[keep].reset_index(drop=True)
     groups["heatsink"] = Group(
@@ -211,6 +218,17 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     factor = spec.order.boards * (1.0 + spec.order.spares_pct / 100.0)
     problem = Problem(groups, couplings, offers, fees, factor, spec.order.objective)
     return Assembly(problem, tables, lines, funnel, candidates)
+
+
+def _rail_usage(rail: dict, use) -> list:
+    """BOM lines of a rail option: the regulator and its set resistors, when regulated."""
+    if not rail["regulated"]:
+        return []
+    u = [use(rail["reg_mpn"], None, 1, "regulator")]
+    if isinstance(rail["reg_family"], str):
+        u += [use(rail["reg_family"], rail["reg_r1_ohm"], 1, "regulator_set_resistor"),
+              use(rail["reg_family"], rail["reg_r2_ohm"], 1, "regulator_set_resistor")]
+    return u
 
 
 def _couplings(targets, k, op, d_ok, i_fb, c_slew) -> list[Coupling]:
