@@ -12,15 +12,16 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+import numpy.typing as npt
 
 from partpick.evaluate.context import Pool, Targets, quiescent_a
 from partpick.evaluate.stage import ccs_pair_current_bounds_a
 from partpick.model import bias, dissipation, opamp, regulator, soa, swing, thermal
 from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
+    DVBE_DT_V_K,
     GAIN_ERROR_WARN,
     LOOP_GAIN_MAX,
-    DVBE_DT_V_K,
     RESISTOR_POWER_MARGIN,
     VT_V,
 )
@@ -123,16 +124,16 @@ def check_selection(
         tj_lim = d["tj_max_c"] - spec.thermal.tj_derate_c
         tj_reached = max(tj_reached, tj)
         # Section 5: SOA at this case temperature.
-        bp_v, bp_a = soa.pad_curves([(np.array(d["soa_v"]), np.array(d["soa_a"])) if len(d["soa_v"]) else None])
+        curve = device_curve(d)
         derate = float(soa.derating_factor(d["tj_max_c"], t_case))
         vce, ic = soa.load_line(np.array([vs_max]), vp, ip, phi)
-        limit_25 = soa.soa_current_limit_a(vce, bp_v, bp_a, np.array([d["ic_max_a"]]), np.array([d["pd_max_w"]]), np.array([d["vceo_v"]]))
+        limit_25 = soa.soa_current_limit_a(vce, *curve)
         limit = limit_25 * derate
         margin = float(soa.soa_margin(vce, ic, limit)[0])
         util = float(np.max(np.where(ic > 0, ic / np.maximum(limit_25, 1e-12), 0.0)))
         if spec.output.short_circuit:
-            margin = min(margin, float(soa.short_circuit_margin(vs_max, ip, bp_v, bp_a, np.array([d["ic_max_a"]]), np.array([d["pd_max_w"]]), np.array([d["vceo_v"]]), derate)[0]))
-            util = max(util, ip / max(float(soa.soa_current_limit_a(np.array([vs_max]), bp_v[0], bp_a[0], d["ic_max_a"], d["pd_max_w"], d["vceo_v"])[0]), 1e-12))
+            margin = min(margin, float(soa.short_circuit_margin(vs_max, ip, *curve, derate)[0]))
+            util = max(util, ip / max(float(device_soa_limit_a(d, [vs_max])[0]), 1e-12))
         soa_worst = min(soa_worst, margin)
         if role == "output_npn":
             per = np.where(ic[0] > 0, 1 - ic[0] / np.maximum(limit[0], 1e-12), np.inf)
@@ -187,9 +188,7 @@ def check_selection(
             else:
                 tj_t = float(swing.ccs_junction_temp_c(amb, p_t, ccs["rth_ja_k_w"]))
                 t_case_t = tj_t  # in free air the case is taken at the junction (conservative)
-            bp_v, bp_a = soa.pad_curves([(np.array(t["soa_v"]), np.array(t["soa_a"])) if len(t["soa_v"]) else None])
-            i_soa = float(soa.soa_current_limit_a(np.array([2.0 * vs_max]), bp_v[0], bp_a[0], t["ic_max_a"], t["pd_max_w"], t["vceo_v"])[0])
-            i_soa *= float(soa.derating_factor(t["tj_max_c"], t_case_t))
+            i_soa = float(device_soa_limit_a(t, [2.0 * vs_max])[0]) * float(soa.derating_factor(t["tj_max_c"], t_case_t))
             m["bias_source_transistor"] += [
                 Margin(f"{t['mpn']} junction temperature", tj_lim - tj_t, "K", tj_lim - amb),
                 Margin(f"{t['mpn']} SOA at {2 * vs_max:.1f} V", 1.0 - standing / max(i_soa, 1e-12), "", 1.0),
@@ -261,6 +260,22 @@ def check_selection(
     plot["tj_limit_c"] = min(d["tj_max_c"] for d in dev.values()) - spec.thermal.tj_derate_c
     plot["ambient_c"] = amb
     return SelectionCheck(design, m, warnings, plot)
+
+
+def device_curve(dev: dict) -> tuple[np.ndarray, ...]:
+    """One catalogue row's SOA data as :func:`soa.soa_current_limit_a` takes it.
+
+    Returns ``(bp_v, bp_a, ic_max_a, pd_max_w, vceo_v)`` for a single device
+    (breakpoints NaN-padded, shape ``[1, n_bp]``; ratings shape ``[1]``).
+    """
+    bp_v, bp_a = soa.pad_curves([(np.array(dev["soa_v"]), np.array(dev["soa_a"])) if len(dev["soa_v"]) else None])
+    return bp_v, bp_a, np.array([dev["ic_max_a"]]), np.array([dev["pd_max_w"]]), np.array([dev["vceo_v"]])
+
+
+def device_soa_limit_a(dev: dict, vce_v: npt.ArrayLike) -> np.ndarray:
+    """DC SOA current limit of one catalogue row at 25 degC at each of ``vce_v`` [A]."""
+    vce = np.atleast_2d(np.asarray(vce_v, dtype=float))
+    return np.asarray(soa.soa_current_limit_a(vce, *device_curve(dev)))[0]
 
 
 def _rth_cs(override, package: str) -> float:

@@ -695,9 +695,8 @@ def _feed_note(row: dict, ex: _Explainer) -> str:
     if mode != "resistor":
         room = row["rail_min_v"] - row["base_peak_v"]
         i_ccs = spec_current if spec_current is not None else max(BASE_DRIVE_MARGIN * ib, CCS_MIN_CURRENT_A)
-        fixed = spec_current
-        if fixed is not None and fixed < BASE_DRIVE_MARGIN * ib:
-            parts.append(f"current source: the spec fixes it at {1e3 * fixed:.0f} mA, below the {1e3 * BASE_DRIVE_MARGIN * ib:.0f} mA needed")
+        if spec_current is not None and spec_current < BASE_DRIVE_MARGIN * ib:
+            parts.append(f"current source: the spec fixes it at {1e3 * spec_current:.0f} mA, below the {1e3 * BASE_DRIVE_MARGIN * ib:.0f} mA needed")
         elif room < CCS_COMPLIANCE_V:
             parts.append(f"current source: only {room:.2f} V of compliance left (needs {CCS_COMPLIANCE_V:g} V)")
         else:

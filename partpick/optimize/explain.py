@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.optimize.design import ROLE_ORDER, DesignResult, option_sources, prepare, run, usable_sources
+from partpick.optimize.design import ROLE_ORDER, DesignResult, option_sources, prepare, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -160,7 +160,7 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
 def _usable_role(result: DesignResult, mpn: str) -> str | None:
     """The first role (in BOM order) in which some option of the assembled problem uses ``mpn``."""
     asm = result.assembly
-    if asm is None or asm.problem is None or mpn not in usable_sources(result):
+    if asm is None or asm.problem is None:
         return None
     roles = {r for g in asm.problem.groups for o in range(len(asm.problem.groups[g])) for src, _q, r in option_sources(result, g, o) if src == mpn}
     return min(roles, key=ROLE_ORDER.index) if roles else None

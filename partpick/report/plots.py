@@ -25,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
+from partpick.evaluate.selection import device_soa_limit_a
 from partpick.model import soa, thermal
 from partpick.optimize.design import DesignResult
 from partpick.report.files import write_all
@@ -162,15 +163,6 @@ def _conducting_locus(label: str, rail_v: float, v_peak_v: float, i_peak_a: floa
     return Locus(label, float(phase_rad), vce[on], ic[on])
 
 
-def _limit_a(dev: dict, vce_v: np.ndarray) -> np.ndarray:
-    """DC SOA current limit of one catalogue row at 25 degC (:func:`soa.soa_current_limit_a`)."""
-    bp_v, bp_a = soa.pad_curves([(np.array(dev["soa_v"]), np.array(dev["soa_a"])) if len(dev["soa_v"]) else None])
-    vce = np.atleast_2d(np.asarray(vce_v, dtype=float))
-    ratings = (np.array([dev["ic_max_a"]]), np.array([dev["pd_max_w"]]), np.array([dev["vceo_v"]]))
-    lim = soa.soa_current_limit_a(vce, bp_v, bp_a, *ratings)
-    return np.asarray(lim)[0]
-
-
 def worst_sample(vce_v: np.ndarray, ic_a: np.ndarray, limit_a: np.ndarray) -> tuple[float, float, float]:
     """The load-line sample with the least SOA margin (model s.5).
 
@@ -232,18 +224,18 @@ def soa_plot_data(result: DesignResult, role: str) -> SoaPlot:
         ]
     # The model's own samples (phase +phi, time order from t = 0).
     vce_m, ic_m = soa.load_line(rail, tg.v_peak_v, tg.i_peak_a, phi)
-    limit_m = _limit_a(dev, vce_m) * derate
+    limit_m = device_soa_limit_a(dev, vce_m) * derate
     w_v, w_a, w_margin = worst_sample(vce_m, ic_m, limit_m)
     if role == "output_npn":
         w_v, w_a = (float(x) for x in pdata["worst"])
-        w_margin = float(1.0 - w_a / max(float(_limit_a(dev, np.array([w_v]))[0]) * derate, 1e-12))
+        w_margin = float(1.0 - w_a / max(float(device_soa_limit_a(dev, np.array([w_v]))[0]) * derate, 1e-12))
     vceo = float(dev["vceo_v"])
     lo = max(0.1, min(1.0, 0.8 * float(np.min(vce_m))))
     grid = np.geomspace(lo, vceo, CURVE_SAMPLES)
-    limit25 = _limit_a(dev, grid)
+    limit25 = device_soa_limit_a(dev, grid)
     sc = None
     if result.spec.output.short_circuit:
-        lim_sc = float(_limit_a(dev, np.array([rail]))[0]) * derate
+        lim_sc = float(device_soa_limit_a(dev, np.array([rail]))[0]) * derate
         sc = (rail, float(tg.i_peak_a), 1.0 - float(tg.i_peak_a) / max(lim_sc, 1e-12))
     return SoaPlot(
         role=role, mpn=str(dev["mpn"]), vce_grid_v=grid, limit_25c_a=limit25, limit_case_a=limit25 * derate,
