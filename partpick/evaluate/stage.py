@@ -772,10 +772,8 @@ def _keys(k: pd.DataFrame, rails: pd.DataFrame, pairs: pd.DataFrame) -> list[str
     pn = pairs["mpn_n"].to_numpy()[k["pair_i"].to_numpy()]
     pp = pairs["mpn_p"].to_numpy()[k["pair_i"].to_numpy()]
     rv = rails["rail_min_v"].to_numpy(float)[k["rail_i"].to_numpy()]
-    return [
-        f"{a}/{b}|{r:09.4f}|{re:.4f}|{f}|{c1}|{c2}|{ri}|{m}"
-        for a, b, r, re, f, c1, c2, ri, m in zip(pn, pp, rv, k["re_ohm"], k["feed"], k["ccs_n_i"], k["ccs_p_i"], k["ref_i"], k["ccs_mount"])
-    ]
+    cols = [pn.tolist(), pp.tolist(), rv.tolist()] + [k[c].tolist() for c in ("re_ohm", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ccs_mount")]
+    return [f"{a}/{b}|{r:09.4f}|{re:.4f}|{f}|{c1}|{c2}|{ri}|{m}" for a, b, r, re, f, c1, c2, ri, m in zip(*cols)]
 
 
 def _empty(rails, pairs, res, funnel, considered) -> StageTable:

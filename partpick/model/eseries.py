@@ -18,6 +18,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import re
 from collections.abc import Callable
 from decimal import Decimal
@@ -164,6 +165,14 @@ def series_values(name: str, lo: float, hi: float) -> NDArray[np.float64]:
     return values[keep]
 
 
+@functools.lru_cache(maxsize=256)
+def _bounded_values(name: str, lo: float, hi: float) -> NDArray[np.float64]:
+    """:func:`series_values` of a family's fixed range, computed once (read-only)."""
+    values = series_values(name, lo, hi)
+    values.flags.writeable = False
+    return values
+
+
 def _grid_for(
     x: NDArray[np.float64], name: str, lo: float | None, hi: float | None
 ) -> NDArray[np.float64]:
@@ -171,6 +180,8 @@ def _grid_for(
     finite = x[np.isfinite(x) & (x > 0.0)]
     span_lo = float(finite.min()) / 10.0 if finite.size else 1.0
     span_hi = float(finite.max()) * 10.0 if finite.size else 10.0
+    if lo is not None and hi is not None:
+        return _bounded_values(name, float(lo), float(hi))
     lo_v = span_lo if lo is None else lo
     hi_v = span_hi if hi is None else hi
     if lo is None:  # one-sided bound: keep the open side wide enough to reach it

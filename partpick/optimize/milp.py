@@ -22,7 +22,7 @@ solver's search path.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pulp
@@ -109,18 +109,19 @@ class Solution:
         return self.parts_cost + self.fees_cost
 
 
-def _solver(name: str, time_limit: float | None):
+def _solver(name: str, time_limit: float | None, warm: bool = False):
     if name == "cbc":
         # CBC 2.10's preprocessing returned a dearer design as optimal on some
         # small problems with shared lines (found by the pruning tests against
         # brute force), and it took most of CBC's time on small models.
-        return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, options=["randomSeed 1", "randomCbcSeed 1", "preprocess off"])
+        return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, warmStart=warm,
+                                 options=["randomSeed 1", "randomCbcSeed 1", "preprocess off"])
     if name == "highs":
         try:
             import highspy  # noqa: F401
         except ImportError:
             raise UsageError("the HiGHS solver needs the package highspy (pip install highspy); use --solver cbc") from None
-        return pulp.HiGHS(msg=False, timeLimit=time_limit, threads=1, random_seed=1)
+        return pulp.HiGHS(msg=False, timeLimit=time_limit, threads=1, random_seed=1, warmStart=warm)
     raise UsageError(f"unknown solver '{name}' (cbc or highs)")
 
 
@@ -211,11 +212,21 @@ def _lift(sol: Solution, keep: dict[str, np.ndarray]) -> Solution:
     return sol
 
 
-def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
-    """Solve the problem restricted to the ``keep`` options; the choice in the whole problem's indices."""
+def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str, time_limit: float | None,
+                   start: Solution | None = None) -> Solution:
+    """Solve the problem restricted to the ``keep`` options; the choice in the whole problem's indices.
+
+    ``start`` (a solution of the whole problem) is passed on as the first
+    incumbent when every option it chose is kept.
+    """
     from partpick.optimize.prune import restrict
 
-    return _lift(solve_model(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, time_limit), keep)
+    first = None
+    if start is not None:
+        pos = {g: int(np.searchsorted(keep[g], o)) for g, o in start.choice.items()}
+        if all(p < len(keep[g]) and keep[g][p] == start.choice[g] for g, p in pos.items()):
+            first = replace(start, choice=pos)
+    return _lift(solve_model(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, time_limit, start=first), keep)
 
 
 def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
@@ -226,6 +237,10 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     left-out option can be in an optimal design. A threshold that leaves no
     feasible design is widened geometrically; a feasible optimum above
     ``T - margin`` sets ``T = z + margin`` for one last solve.
+
+    Each design found is a design of the whole problem: the next solve starts
+    from it (:func:`solve_model`'s ``start``), and a solve stopped by the time
+    limit never returns a dearer design than one already found.
     """
     from partpick.optimize import prune as reduce
 
@@ -237,16 +252,21 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     top = float(finite.max())
     step = max(0.1 * abs(floor), 1.0) + max(problem.fees.values(), default=0.0)
     threshold = floor + step
+    best: Solution | None = None
     while True:
         inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
         sol = None
         if all(len(k) for k in inside.values()):
             sub = reduce.restrict(problem, inside)
             keep = reduce.compose(inside, reduce.dominated(sub, {g: tie[g][inside[g]] for g in tie}))
-            sol = _solve_reduced(problem, keep, tie, solver, time_limit)
+            sol = _solve_reduced(problem, keep, tie, solver, time_limit, start=best)
             if sol.status == "not proven optimal":
+                if best is not None and objective_value(problem, best) < objective_value(problem, sol):
+                    best.status = "not proven optimal"
+                    return best
                 return sol
             if sol.status == "optimal":
+                best = sol
                 value = objective_value(problem, sol)
                 if value + _tie_margin(problem, sol) <= threshold or threshold >= top:
                     return sol
@@ -273,9 +293,83 @@ def _infeasible(solver: str) -> Solution:
     return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
 
 
-def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc", time_limit: float | None = None) -> Solution:
-    """Build the MILP of the whole problem, with the given tie-break weights, and solve it."""
+def compat_classes(compat: list[np.ndarray], n_parent: int) -> tuple[np.ndarray, list[np.ndarray]]:
+    """Parent options grouped by the set of child options that suit them.
+
+    Returns ``(cls, members)``: ``cls[p]`` is the class of parent option ``p``
+    (a class holds the parents that suit exactly the same children) and
+    ``members[k]`` the children that suit class ``k``. Parents that suit no
+    child share one class with no members.
+    """
+    lengths = np.array([len(c) for c in compat], dtype=np.int64)
+    parents = np.concatenate([np.asarray(c, dtype=np.int64) for c in compat]) if lengths.sum() else np.zeros(0, np.int64)
+    kids = np.repeat(np.arange(len(compat), dtype=np.int64), lengths)
+    order = np.lexsort((kids, parents))
+    parents, kids = parents[order], kids[order]
+    starts = np.searchsorted(parents, np.arange(n_parent + 1))
+    index: dict[bytes, int] = {}
+    cls = np.empty(n_parent, dtype=np.int64)
+    sets: list[np.ndarray] = []
+    for p in range(n_parent):
+        row = kids[starts[p]:starts[p + 1]]
+        key = row.tobytes()
+        k = index.get(key)
+        if k is None:
+            k = index[key] = len(sets)
+            sets.append(row)
+        cls[p] = k
+    return cls, sets
+
+
+def _link(m: pulp.LpProblem, name: str, big: list[pulp.LpVariable], small: list[pulp.LpVariable],
+          cls: np.ndarray, allowed: list[np.ndarray]) -> list[tuple[pulp.LpVariable, list[int]]]:
+    """``the chosen options of two groups go together``, with the larger group's options in classes.
+
+    ``cls[i]`` is the class of option ``i`` of the larger group and
+    ``allowed[k]`` the options of the smaller group that class ``k`` goes with.
+    Each class gets ``w_k = sum of its options' binaries``; then
+    ``small_j <= sum of w_k over the classes that allow j`` and
+    ``w_k <= sum of the small options class k allows``. With one option
+    chosen per group these hold exactly when the pair goes together; the
+    classes keep the rows short when many options allow the same partners
+    (the stage's configurations against heatsinks, resistor values or
+    op-amps). Returns the class variables, each with its members.
+    """
+    members: list[list[int]] = [[] for _ in allowed]
+    for i, k in enumerate(cls.tolist()):
+        members[k].append(i)
+    made = []
+    w: list[pulp.LpVariable | None] = []
+    partners: list[list[int]] = [[] for _ in small]
+    for k, (row, ps) in enumerate(zip(allowed, members)):
+        if not ps:
+            w.append(None)
+            continue
+        if len(ps) == 1:
+            v = big[ps[0]]
+        else:
+            v = pulp.LpVariable(f"w_{name}_{k}", lowBound=0)
+            m += pulp.LpAffineExpression([(big[i], 1.0) for i in ps] + [(v, -1.0)]) == 0, f"class_{name}_{k}"
+            made.append((v, ps))
+        w.append(v)
+        m += pulp.LpAffineExpression([(small[j], 1.0) for j in row.tolist()] + [(v, -1.0)]) >= 0, f"has_{name}_{k}"
+        for j in row.tolist():
+            partners[j].append(k)
+    for j, ks in enumerate(partners):
+        m += pulp.LpAffineExpression([(w[k], 1.0) for k in ks] + [(small[j], -1.0)]) >= 0, f"fits_{name}_{j}"
+    return made
+
+
+def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc", time_limit: float | None = None,
+                start: Solution | None = None) -> Solution:
+    """Build the MILP of the whole problem, with the given tie-break weights, and solve it.
+
+    ``start``, a feasible solution of this problem (choice in its indices), is
+    handed to the solver as its first incumbent, so the search prunes against
+    it from the first node.
+    """
     m = pulp.LpProblem("partpick", pulp.LpMinimize)
+    classes: list[tuple[pulp.LpVariable, str, list[int]]] = []
     x: dict[str, list[pulp.LpVariable]] = {}
     tie_terms = []
     for gname, g in problem.groups.items():
@@ -288,9 +382,15 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     for gname, g in problem.groups.items():
         if g.parent is None:
             continue
-        parent = x[g.parent]
-        for i, compat in enumerate(g.compat or []):
-            m += pulp.LpAffineExpression([(parent[j], 1.0) for j in compat] + [(x[gname][i], -1.0)]) >= 0, f"compat_{gname}_{i}"
+        cls, sets = compat_classes(g.compat or [], len(x[g.parent]))
+        classes += [(v, g.parent, ps) for v, ps in _link(m, gname, x[g.parent], x[gname], cls, sets)]
+    # Rows the couplings imply between two groups, option by option (valid for
+    # every design; they keep the relaxation from pairing options that cannot
+    # go together).
+    from partpick.optimize.prune import coupled_pairs
+
+    for g, h, cls, allowed in coupled_pairs(problem):
+        classes += [(v, g, ps) for v, ps in _link(m, f"{g}_{h}", x[g], x[h], cls, allowed)]
     for c_i, c in enumerate(problem.couplings):
         terms = []
         for gname, coef in c.terms.items():
@@ -322,11 +422,13 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     cost_terms = [(y[s], problem.fees[s]) for s in suppliers]
     supplier_tie = {s: 1e-7 * (i + 1) for i, s in enumerate(suppliers)}
     buy: list[tuple[str, Offer, pulp.LpVariable]] = []
+    extra: list[tuple[pulp.LpVariable, pulp.LpVariable, int]] = []  # (z, cover, need_max) of each buy
     for l_i, line in enumerate(sorted(need_expr)):
         offers = problem.line_offers.get(line, [])
         # No plan buys more than the largest need, except to reach a break or MOQ.
         need_max = ceil_units(sum(most[line].values()))
         qs = []
+        covers = []
         first_buy = len(buy)
         by_supplier: dict[str, list[pulp.LpVariable]] = {}
         for r_i, off in enumerate(offers):
@@ -339,12 +441,23 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             m += q - low * z >= 0
             m += q - cap * z <= 0
             m += z - y[off.supplier] <= 0
+            # Cover: the units of this purchase that count toward the need, at
+            # most the line's largest need when the break is used. Every plan
+            # has such a cover (a purchase covers min(q, need_max) units), and
+            # it ties the share of the need a supplier serves to its z and y,
+            # so the relaxation cannot serve a whole need from a break it
+            # opens by a fraction (the strong facility-location form).
+            c = pulp.LpVariable(f"c_{l_i}_{r_i}", lowBound=0)
+            m += c - q <= 0
+            m += c - need_max * z <= 0
+            covers.append((c, 1.0))
             by_supplier.setdefault(off.supplier, []).append(z)
             # Price plus a sub-cent preference for the earlier supplier, so that
             # equal prices split the same way with every solver.
             cost_terms.append((q, off.unit_price + supplier_tie[off.supplier]))
             qs.append((q, 1.0))
             buy.append((line, off, q))
+            extra.append((z, c, need_max))
         # A line's offers are used only when some chosen option needs the line
         # (at most one break per supplier); this also tightens the relaxation.
         # (dedupe by name: PuLP overloads == on variables)
@@ -359,7 +472,7 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         sellers = [(y[s], 1.0) for s in by_supplier]
         for group_users in users_by_group[line].values():
             m += pulp.LpAffineExpression(sellers + [(v, -1.0) for v in group_users.values()]) >= 0
-        m += pulp.LpAffineExpression(qs + [(v, -a) for v, a in need_expr[line]]) >= 0, f"need_{l_i}"
+        m += pulp.LpAffineExpression(covers + [(v, -a) for v, a in need_expr[line]]) >= 0, f"need_{l_i}"
         if len(most[line]) == 1:
             # A line of one group is needed by one chosen option at a time: its
             # purchase costs at least that option's cheapest purchase. Valid
@@ -374,7 +487,9 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     cost = pulp.LpAffineExpression(cost_terms)
     tie_expr = pulp.LpAffineExpression(tie_terms)
 
-    sol = _solver(solver, time_limit)
+    if start is not None:
+        _set_start(start, x, y, buy, extra, classes)
+    sol = _solver(solver, time_limit, warm=start is not None)
     # Lexicographic goals before cost: fewest changed roles, then fewest lines.
     goals = []
     final = cost + tie_expr
@@ -417,6 +532,24 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     need = {l: ceil_units(q) for l, q in line_need(problem, choice).items()}
     state = "optimal" if proven else "not proven optimal"
     return Solution(state, choice, need, sorted(purchases, key=lambda p: (p.line, p.supplier)), round(parts, 6), round(fees, 6), used, solver)
+
+
+def _set_start(start: Solution, x, y, buy, extra, classes) -> None:
+    """Initial values of every variable from a feasible solution (the solver's first incumbent)."""
+    for g, vars_ in x.items():
+        for i, v in enumerate(vars_):
+            v.setInitialValue(1 if i == start.choice[g] else 0)
+    for v, g, members in classes:
+        v.setInitialValue(1 if start.choice[g] in members else 0)
+    used = set(start.suppliers_used)
+    for s, v in y.items():
+        v.setInitialValue(1 if s in used else 0)
+    bought = {(p.line, p.supplier, p.min_qty): p.qty for p in start.purchases}
+    for (line, off, q), (z, c, need_max) in zip(buy, extra):
+        qty = bought.get((line, off.supplier, off.min_qty), 0)
+        q.setInitialValue(qty)
+        z.setInitialValue(1 if qty else 0)
+        c.setInitialValue(min(qty, need_max))
 
 
 def check_choice(problem: Problem, choice: dict[str, int]) -> list[str]:

@@ -36,6 +36,8 @@ from partpick.optimize.milp import Coupling, Group, Problem
 
 #: Largest number of options compared pairwise in one block of a group.
 BLOCK_PAIRS = 4_000_000
+#: Largest table (distinct coupling rows of one group x options of the other) :func:`coupled_pairs` builds.
+MAX_PAIR_CELLS = 50_000_000
 
 
 # --------------------------------------------------------------------------- restriction
@@ -390,4 +392,52 @@ def _subset(sets: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     out = np.empty(len(a), dtype=bool)
     for part in _chunks(np.arange(len(a)), max(1, 50_000_000 // max(sets.shape[1], 1))):
         out[part] = ~np.any(sets[a[part]] & ~sets[b[part]], axis=1)
+    return out
+
+
+# --------------------------------------------------------------------------- pairs the couplings allow
+
+
+def coupled_pairs(problem: Problem) -> list[tuple[str, str, np.ndarray, list[np.ndarray]]]:
+    """Which options of two coupled groups can stand together, class by class.
+
+    For two groups ``g`` (the larger) and ``h`` that share a coupling, option
+    ``i`` of ``g`` and ``j`` of ``h`` can be in one design only if every
+    coupling holding both is met with every other group at its most lenient
+    coefficient (its largest one, in the ``>=`` sense). Every feasible design
+    meets this, so rows built from it are valid; they tie the two groups'
+    choices together option by option, where the coupling rows alone let a
+    relaxation pair a stage with an op-amp that cannot drive it.
+
+    Returns ``(g, h, cls, allowed)`` for every pair where some combination is
+    ruled out: ``cls[i]`` is the class of option ``i`` of ``g`` (options that
+    allow the same options of ``h``) and ``allowed[k]`` the options of ``h``
+    that class ``k`` allows. The tolerance is the one of
+    :func:`~partpick.optimize.milp.check_choice`.
+    """
+    norm = []
+    for c in problem.couplings:
+        sign = 1.0 if c.sense == ">=" else -1.0
+        norm.append(({g: sign * np.asarray(v, float) for g, v in c.terms.items()}, sign * c.rhs))
+    names = sorted({g for terms, _r in norm for g in terms}, key=lambda g: (-len(problem.groups[g]), g))
+    out = []
+    for a, g in enumerate(names):
+        for h in names[a + 1:]:
+            both = [(terms, rhs) for terms, rhs in norm if g in terms and h in terms]
+            if not both or not len(problem.groups[g]) or not len(problem.groups[h]):
+                continue
+            need = np.array([rhs - sum(float(v.max()) for k, v in terms.items() if k not in (g, h) and len(v)) for terms, rhs in both])
+            rows_g, inv_g = np.unique(np.stack([t[g] for t, _r in both], axis=1), axis=0, return_inverse=True)
+            rows_h, inv_h = np.unique(np.stack([t[h] for t, _r in both], axis=1), axis=0, return_inverse=True)
+            if len(rows_g) * len(problem.groups[h]) > MAX_PAIR_CELLS:
+                continue  # too many to tabulate; the coupling rows alone still hold
+            ok = np.ones((len(rows_g), len(rows_h)), dtype=bool)
+            for c in range(len(both)):
+                ok &= rows_g[:, c][:, None] + rows_h[:, c][None, :] >= need[c] - 1e-9
+            if ok.all():
+                continue
+            per_option = ok[:, inv_h.ravel()]  # distinct rows of g x options of h
+            packed, row_cls = np.unique(np.packbits(per_option, axis=1), axis=0, return_inverse=True)
+            allowed = [np.flatnonzero(r[: len(problem.groups[h])]) for r in np.unpackbits(packed, axis=1).astype(bool)]
+            out.append((g, h, row_cls.ravel()[inv_g.ravel()], allowed))
     return out

@@ -32,16 +32,21 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from partpick.optimize import milp
 from partpick.optimize.milp import (
     Coupling,
     Group,
     Offer,
     Problem,
+    Purchase,
     Solution,
     ceil_units,
     check_choice,
+    compat_classes,
     line_need,
     solve,
+    solve_model,
+    tie_weights,
 )
 
 #: Agreement asked of two routes to the same optimum [currency].
@@ -725,3 +730,138 @@ def test_tie_break_never_outweighs_a_real_saving() -> None:
     best = brute_force(p)
     assert (best.cost, best.choice) == (pytest.approx(2.0), {"g0": 1, "g1": 1})
     assert solve(p, "cbc").total == pytest.approx(best.cost, abs=COST_TOL)
+
+
+# --------------------------------------------------------------------------- compat classes
+
+
+@settings(max_examples=80, deadline=None, derandomize=True)
+@given(st.integers(1, 12), st.integers(1, 6), st.data())
+def test_compat_classes_reconstruct_every_pair(n_parent: int, n_child: int, data) -> None:
+    """Parents grouped by the children that suit them lose or invent no (parent, child) pair."""
+    compat = [np.array(sorted(data.draw(st.sets(st.integers(0, n_parent - 1)))), dtype=np.int64) for _ in range(n_child)]
+    cls, sets = compat_classes(compat, n_parent)
+    for p in range(n_parent):
+        for c in range(n_child):
+            assert (c in set(sets[cls[p]].tolist())) == (p in set(compat[c].tolist()))
+    # Classes are distinct sets: two parents share a class exactly when they suit the same children.
+    assert len({s.tobytes() for s in sets}) == len(sets)
+
+
+def test_aggregated_compat_on_many_parents_with_shared_children() -> None:
+    # Hand-worked: 40 "stage" options in four blocks of ten that suit the same two
+    # heatsinks each (so the classes hold ten parents); prices make stage 37 the
+    # cheapest (0.10) but only heatsink h3 (4.00) suits its block; stage 5 (0.90)
+    # with h0 (0.50) totals 1.40 < 4.10, so the plan is (5, h0).
+    n = 40
+    stage = Group("stage", [f"k{i:02d}" for i in range(n)], [[(f"K{i}", 1.0, "s")] for i in range(n)])
+    blocks = [np.arange(b * 10, b * 10 + 10) for b in range(4)]
+    hs = Group("hs", ["h0", "h1", "h2", "h3"], [[(f"H{j}", 1.0, "h")] for j in range(4)], parent="stage",
+               compat=[np.concatenate([blocks[0], blocks[1]]), blocks[1], blocks[2], blocks[3]])
+    price = {f"K{i}": 2.0 for i in range(n)} | {"K5": 0.9, "K37": 0.1, "H0": 0.5, "H1": 0.2, "H2": 0.3, "H3": 4.0}
+    offers = {l: [Offer("S1", 1, v, 10, 1)] for l, v in price.items()}
+    p = Problem({"stage": stage, "hs": hs}, [], offers, {"S1": 0.0}, 1.0)
+    exact = brute_force(p)
+    assert exact.cost == pytest.approx(1.4)
+    assert exact.choice == {"stage": 5, "hs": 0}
+    cls, sets = compat_classes(hs.compat, n)
+    # Blocks suit {h0}, {h0, h1}, {h2} and {h3}: four classes of ten parents each.
+    assert [s.tolist() for s in sets] == [[0], [0, 1], [2], [3]]
+    assert np.bincount(cls).tolist() == [10, 10, 10, 10]
+    assert_matches(p, exact, "cost")
+
+
+# --------------------------------------------------------------------------- warm starts
+
+
+@settings(max_examples=30, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(problems(), st.sampled_from(["cbc", "highs"]), st.booleans())
+def test_a_warm_start_keeps_the_exact_optimum(problem: Problem, solver: str, from_optimum: bool) -> None:
+    """Started from any feasible design (the optimum, or a dearer one), the model still ends at the brute-force optimum."""
+    exact = brute_force(problem)
+    if exact is None:
+        return
+    tie = tie_weights(problem)
+    first = solve_model(problem, tie, solver)
+    if not from_optimum:
+        # A feasible design other than the optimum when there is one: the dearest feasible choice.
+        worst = brute_force_worst(problem)
+        if worst is not None:
+            need = {l: ceil_units(q) for l, q in line_need(problem, worst).items()}
+            plan = cheapest_plan(problem, need)
+            if plan is not None:
+                first = Solution("optimal", worst, need, plan, sum(p.qty * p.unit_price for p in plan), sum(problem.fees[s] for s in {p.supplier for p in plan}),
+                                 sorted({p.supplier for p in plan}), solver)
+    again = solve_model(problem, tie, solver, start=first)
+    assert again.status == "optimal"
+    assert again.total == pytest.approx(exact.cost, abs=COST_TOL)
+    assert_plan_valid(problem, again)
+
+
+def brute_force_worst(problem: Problem) -> dict[str, int] | None:
+    """The feasible choice with the highest order cost (a poor but valid start)."""
+    names = list(problem.groups)
+    worst, worst_cost = None, -math.inf
+    for combo in itertools.product(*[range(len(problem.groups[g])) for g in names]):
+        choice = dict(zip(names, combo))
+        if check_choice(problem, choice) or not _rules_ok(problem, choice):
+            continue
+        need = {l: ceil_units(q) for l, q in line_need(problem, choice).items()}
+        cost = order_cost(problem, need)
+        if math.isfinite(cost) and cost > worst_cost:
+            worst, worst_cost = choice, cost
+    return worst
+
+
+def _rules_ok(problem: Problem, choice: dict[str, int]) -> bool:
+    if any(choice[g] != o for g, o in problem.forced.items()):
+        return False
+    return not any(all(choice[g] in opts for g, opts in cut.items()) for cut in problem.forbidden)
+
+
+def cheapest_plan(problem: Problem, need: dict[str, int]) -> list[Purchase] | None:
+    """Purchases of one supplier per line, the cheapest single offer covering the need (None if none can)."""
+    plan = []
+    for line, n in need.items():
+        best = None
+        for off in problem.line_offers.get(line, []):
+            qty = max(n, off.min_qty, off.moq)
+            if qty <= off.stock and (best is None or qty * off.unit_price < best[0]):
+                best = (qty * off.unit_price, Purchase(line, off.supplier, off.min_qty, off.unit_price, qty))
+        if best is None:
+            return None
+        plan.append(best[1])
+    return plan
+
+
+def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypatch) -> None:
+    # Hand-worked: a0 (line LA, S1 only, 1.00), a1 (LA1, S2, 4.00) or a2 (LA2, S1, 20.00),
+    # with b0 (LB, S2, 1.00); both fees 5.00. (a0, b0) = 1 + 1 + 10 = 12.00,
+    # (a1, b0) = 4 + 1 + 5 = 10.00, (a2, b0) = 31.00. Cost bounds leave fees out (a0 2,
+    # a1 5, a2 21, b0 2), so the first threshold, 2 + 1 + 5 = 8, leaves a2 out and its
+    # optimum 10.00 lies above it: a second solve follows at 10.00 plus the margin. That
+    # one is made to stop "unproven" with a dearer design, as a time limit could; the
+    # design of the first solve comes back, marked not proven optimal.
+    a = Group("a", ["a0", "a1", "a2"], [[("LA", 1.0, "r")], [("LA1", 1.0, "r")], [("LA2", 1.0, "r")]])
+    b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
+    offers = {"LA": [Offer("S1", 1, 1.0, 10, 1)], "LA1": [Offer("S2", 1, 4.0, 10, 1)],
+              "LA2": [Offer("S1", 1, 20.0, 10, 1)], "LB": [Offer("S2", 1, 1.0, 10, 1)]}
+    p = Problem({"a": a, "b": b}, [], offers, {"S1": 5.0, "S2": 5.0}, 1.0)
+    assert brute_force(p).cost == pytest.approx(10.0)
+    calls = []
+    real = milp.solve_model
+
+    def fake(problem, tie, solver="cbc", time_limit=None, start=None):
+        sol = real(problem, tie, solver, time_limit, start=start)
+        calls.append(start)
+        if len(calls) == 2:
+            return replace(sol, status="not proven optimal", parts_cost=sol.parts_cost + 100.0)
+        return sol
+
+    monkeypatch.setattr(milp, "solve_model", fake)
+    sol = milp.solve(p, "cbc")
+    assert len(calls) == 2 and calls[0] is None and calls[1] is not None  # the second solve starts from the first design
+    assert calls[1].choice == {"a": 1, "b": 0}
+    assert sol.status == "not proven optimal"
+    assert sol.total == pytest.approx(10.0)
+    assert sol.choice == {"a": 1, "b": 0}

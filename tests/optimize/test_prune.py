@@ -153,3 +153,70 @@ def test_restrict_renumbers_compat_cuts_and_forced() -> None:
     assert sub.forbidden == [{"p": [1], "c": [0]}]  # the cut on dropped p1 can no longer bite
     assert sub.forced == {"c": 0}
     assert check_choice(sub, {"p": 1, "c": 0}) == []
+
+
+@st.composite
+def coupled_groups(draw) -> Problem:
+    """Three groups of 1-4 options under 1-3 couplings of two or three groups each."""
+    groups = {f"g{i}": Group(f"g{i}", [f"g{i}-{o}" for o in range(n)], [[] for _ in range(n)])
+              for i, n in enumerate(draw(st.lists(st.integers(1, 4), min_size=3, max_size=3)))}
+    couplings = []
+    for ci in range(draw(st.integers(1, 3))):
+        members = draw(st.lists(st.sampled_from(list(groups)), min_size=2, max_size=3, unique=True))
+        terms = {g: np.array(draw(st.lists(st.integers(-3, 3), min_size=len(groups[g]), max_size=len(groups[g]))), float)
+                 for g in members}
+        couplings.append(Coupling(f"c{ci}", terms, draw(st.sampled_from(["<=", ">="])), float(draw(st.integers(-3, 3)))))
+    return Problem(groups, couplings, {}, {"S": 0.0}, 1.0)
+
+
+def _holds(c: Coupling, pick: dict[str, int]) -> bool:
+    lhs = sum(v[pick[g]] for g, v in c.terms.items())
+    return lhs <= c.rhs + 1e-9 if c.sense == "<=" else lhs >= c.rhs - 1e-9
+
+
+@settings(**SETTINGS)
+@given(coupled_groups())
+def test_coupled_pairs_allow_exactly_the_pairs_each_coupling_can_meet(problem: Problem) -> None:
+    import itertools
+
+    names = list(problem.groups)
+    sizes = [len(problem.groups[g]) for g in names]
+    designs = [dict(zip(names, p)) for p in itertools.product(*(range(n) for n in sizes))]
+    listed = set()
+    for g, h, cls, allowed in prune.coupled_pairs(problem):
+        listed.add(frozenset((g, h)))
+        assert len(problem.groups[g]) >= len(problem.groups[h])
+        for i in range(len(problem.groups[g])):
+            for j in range(len(problem.groups[h])):
+                # Independent route: each coupling holding both can be met by
+                # some choice of the third group (enumerated, not bounded).
+                each_ok = all(
+                    any(_holds(c, d) for d in designs if d[g] == i and d[h] == j)
+                    for c in problem.couplings if g in c.terms and h in c.terms
+                )
+                assert (j in allowed[cls[i]]) == each_ok, (g, i, h, j)
+    # A pair left out is one where no combination is ruled out.
+    for a, g in enumerate(names):
+        for h in names[a + 1:]:
+            if frozenset((g, h)) in listed:
+                continue
+            for d in designs:
+                for c in problem.couplings:
+                    if g in c.terms and h in c.terms:
+                        assert any(_holds(c, e) for e in designs if e[g] == d[g] and e[h] == d[h])
+
+
+def test_coupled_pairs_by_hand() -> None:
+    # Stage needs swing: a[i] + b[j] + c[k] >= 5, with c at most 2, so a + b >= 3.
+    a = Group("a", ["a0", "a1", "a2"], [[], [], []])
+    b = Group("b", ["b0", "b1"], [[], []])
+    c = Group("c", ["c0", "c1"], [[], []])
+    need = Coupling("swing", {"a": np.array([0.0, 1.0, 3.0]), "b": np.array([1.0, 2.0]), "c": np.array([2.0, -1.0])}, ">=", 5.0)
+    out = prune.coupled_pairs(Problem({"a": a, "b": b, "c": c}, [need], {}, {"S": 0.0}, 1.0))
+    got = {(g, h): {(i, j) for i in range(3 if g == "a" else 2) for j in allowed[cls[i]]} for g, h, cls, allowed in out}
+    # a0 (0) fits no b; a1 (1) needs b1 (2); a2 (3) fits both.
+    assert got[("a", "b")] == {(1, 1), (2, 0), (2, 1)}
+    # a + c >= 5 - 2 = 3: a0 with no c, a1 with c0 (1 + 2), a2 with c0 only (3 - 1 < 3).
+    assert got[("a", "c")] == {(1, 0), (2, 0)}
+    # b + c >= 5 - 3 = 2: b0 with c0 (1 + 2), b1 with c0 (2 + 2); c1 fits neither.
+    assert got[("b", "c")] == {(0, 0), (1, 0)}
