@@ -90,7 +90,8 @@ def _design_args(d: argparse.ArgumentParser) -> None:
     d.add_argument("--change-weight", type=_number(0.0, strict=False), metavar="COST", help="with --previous: trade one changed role for this much cost (default: fewest changes first)")
     d.add_argument("--risk", action="store_true", help="report single-source lines and the best design without each")
     d.add_argument("--time-limit", type=_number(0.0, strict=True), metavar="S",
-                   help="solver time limit in seconds; a design found by then is reported as not proven optimal")
+                   help="time limit in seconds for the search of each design (all its solver runs together); "
+                        "a design found by then is reported as not proven optimal")
     d.add_argument("--alternatives", type=int, default=0, metavar="N")
     d.add_argument("--solver", choices=("cbc", "highs"), default="cbc")
 

@@ -22,6 +22,7 @@ solver's search path.
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -109,6 +110,9 @@ class Solution:
         return self.parts_cost + self.fees_cost
 
 
+_clock = time.monotonic  # the loop's deadline clock (a test replaces it)
+
+
 def _solver(name: str, time_limit: float | None, warm: bool = False):
     if name == "cbc":
         # CBC 2.10's preprocessing returned a dearer design as optimal on some
@@ -152,8 +156,16 @@ def _found(m: pulp.LpProblem, time_limit: float | None) -> bool:
     if m.status == pulp.LpStatusInfeasible or m.sol_status == pulp.LpSolutionInfeasible:
         return False
     if time_limit is not None:
-        raise SolverError(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
+        raise _no_design_in_time(time_limit)
     raise SolverError(f"the solver stopped without a design ({pulp.LpStatus[m.status]}); run again or use the other --solver")
+
+
+class _NoDesignInTime(SolverError):
+    """The time limit ran out before the solver found any design."""
+
+
+def _no_design_in_time(time_limit: float) -> SolverError:
+    return _NoDesignInTime(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
 
 
 def line_need(problem: Problem, choice: dict[str, int]) -> dict[str, float]:
@@ -241,6 +253,11 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     Each design found is a design of the whole problem: the next solve starts
     from it (:func:`solve_model`'s ``start``), and a solve stopped by the time
     limit never returns a dearer design than one already found.
+
+    ``time_limit`` bounds the whole loop, not each solve: every solve gets
+    what is left of it, and when nothing is left the best design found so far
+    comes back as not proven optimal (none found: :class:`SolverError`, as
+    for a single solve).
     """
     from partpick.optimize import prune as reduce
 
@@ -253,13 +270,27 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     step = max(0.1 * abs(floor), 1.0) + max(problem.fees.values(), default=0.0)
     threshold = floor + step
     best: Solution | None = None
+    deadline = None if time_limit is None else _clock() + time_limit
     while True:
         inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
         sol = None
         if all(len(k) for k in inside.values()):
             sub = reduce.restrict(problem, inside)
             keep = reduce.compose(inside, reduce.dominated(sub, {g: tie[g][inside[g]] for g in tie}))
-            sol = _solve_reduced(problem, keep, tie, solver, time_limit, start=best)
+            left = None if deadline is None else deadline - _clock()
+            if left is not None and left <= 0:
+                if best is None:
+                    raise _no_design_in_time(time_limit)
+                best.status = "not proven optimal"
+                return best
+            try:
+                sol = _solve_reduced(problem, keep, tie, solver, left, start=best)
+            except _NoDesignInTime:
+                if best is not None:
+                    best.status = "not proven optimal"
+                    return best
+                # The message names the user's limit, not what was left of it.
+                raise _no_design_in_time(time_limit) from None
             if sol.status == "not proven optimal":
                 if best is not None and objective_value(problem, best) < objective_value(problem, sol):
                     best.status = "not proven optimal"

@@ -341,9 +341,14 @@ class _GroupView:
         rows, cols = np.nonzero((lb != la) & out[:, None])
         if not len(rows):
             return out
-        triples = np.stack([lb[rows, cols], la[rows, cols], self.need[a[rows], cols]], axis=1)
-        unique, inverse = np.unique(triples, axis=0, return_inverse=True)
-        fine = np.array([self._no_dearer(*map(int, t)) for t in unique], dtype=bool)
+        # One int64 key per (better line, worse line, need) triple: a 1-D unique is
+        # far cheaper than a row-wise one on large groups.
+        n_lines, need = len(self.line_names) + 1, self.need[a[rows], cols]
+        span = int(need.max()) + 1
+        key = ((lb[rows, cols] + 1) * n_lines + (la[rows, cols] + 1)) * span + need
+        unique, inverse = np.unique(key, return_inverse=True)
+        triples = zip((unique // span // n_lines - 1).tolist(), (unique // span % n_lines - 1).tolist(), (unique % span).tolist())
+        fine = np.array([self._no_dearer(*t) for t in triples], dtype=bool)
         out[rows[~fine[inverse.ravel()]]] = False
         return out
 

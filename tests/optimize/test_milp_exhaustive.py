@@ -32,6 +32,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from partpick.errors import SolverError
 from partpick.optimize import milp
 from partpick.optimize.milp import (
     Coupling,
@@ -865,3 +866,79 @@ def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypa
     assert sol.status == "not proven optimal"
     assert sol.total == pytest.approx(10.0)
     assert sol.choice == {"a": 1, "b": 0}
+
+
+def _two_solve_problem() -> Problem:
+    """The hand-worked problem above: its threshold loop solves twice, optimum (a1, b0) at 10.00."""
+    a = Group("a", ["a0", "a1", "a2"], [[("LA", 1.0, "r")], [("LA1", 1.0, "r")], [("LA2", 1.0, "r")]])
+    b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
+    offers = {"LA": [Offer("S1", 1, 1.0, 10, 1)], "LA1": [Offer("S2", 1, 4.0, 10, 1)],
+              "LA2": [Offer("S1", 1, 20.0, 10, 1)], "LB": [Offer("S2", 1, 1.0, 10, 1)]}
+    return Problem({"a": a, "b": b}, [], offers, {"S1": 5.0, "S2": 5.0}, 1.0)
+
+
+@pytest.mark.parametrize("first_takes, solves, status", [(7.0, 2, "optimal"), (12.0, 1, "not proven optimal")])
+def test_the_time_limit_bounds_the_whole_threshold_loop(monkeypatch, first_takes, solves, status) -> None:
+    # A fake clock: the first solve "takes" first_takes seconds of a 10 s limit. Its design,
+    # (a1, b0) at 10.00, lies above the first threshold (8.00), so a second solve must
+    # prove it. Within the limit that solve gets only what is left (3 s); past it there
+    # is no second solve and the first design comes back, not proven optimal.
+    now = [0.0]
+    limits = []
+    real = milp.solve_model
+
+    def fake(problem, tie, solver="cbc", time_limit=None, start=None):
+        limits.append(time_limit)
+        sol = real(problem, tie, solver, None, start=start)
+        now[0] += first_takes if len(limits) == 1 else 0.5
+        return sol
+
+    monkeypatch.setattr(milp, "_clock", lambda: now[0])
+    monkeypatch.setattr(milp, "solve_model", fake)
+    sol = milp.solve(_two_solve_problem(), "cbc", time_limit=10.0)
+    assert len(limits) == solves
+    assert limits[0] == pytest.approx(10.0)
+    if solves == 2:
+        assert limits[1] == pytest.approx(10.0 - first_takes)
+    assert sol.total == pytest.approx(10.0)
+    assert sol.choice == {"a": 1, "b": 0}
+    assert sol.status == status
+
+
+def test_no_design_when_the_time_limit_is_spent_is_an_error(monkeypatch) -> None:
+    # Every solve is made to report "infeasible", as a threshold that holds no design
+    # does, while the clock runs past the limit: the loop must stop with the time-limit
+    # error before widening again, never report the problem infeasible.
+    now = [0.0]
+    real = milp.solve_model
+
+    def fake(problem, tie, solver="cbc", time_limit=None, start=None):
+        now[0] += 20.0
+        return real(problem, tie, solver, None, start=start)
+
+    monkeypatch.setattr(milp, "_clock", lambda: now[0])
+    monkeypatch.setattr(milp, "solve_model", fake)
+    p = _two_solve_problem()
+    monkeypatch.setattr(milp, "_found", lambda m, t: False)
+    with pytest.raises(SolverError, match="no design within the time limit"):
+        milp.solve(p, "cbc", time_limit=10.0)
+
+
+def test_a_later_solve_without_a_design_in_time_keeps_the_design_found(monkeypatch) -> None:
+    # The second solve of the problem above stops at the time limit without any design
+    # (the solver did not take up its start): the first design, (a1, b0) at 10.00, comes
+    # back not proven optimal instead of an error.
+    real = milp.solve_model
+    calls = []
+
+    def fake(problem, tie, solver="cbc", time_limit=None, start=None):
+        calls.append(time_limit)
+        if len(calls) == 2:
+            raise milp._no_design_in_time(time_limit)
+        return real(problem, tie, solver, None, start=start)
+
+    monkeypatch.setattr(milp, "solve_model", fake)
+    sol = milp.solve(_two_solve_problem(), "cbc", time_limit=10.0)
+    assert len(calls) == 2
+    assert sol.status == "not proven optimal"
+    assert sol.total == pytest.approx(10.0) and sol.choice == {"a": 1, "b": 0}
