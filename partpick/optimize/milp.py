@@ -34,6 +34,15 @@ from partpick.optimize.buying import cheapest_purchase
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
 
+#: With a time limit, the share of what is left that a first, probing solve
+#: of a threshold problem may take, and its most seconds (:func:`_probe_then_prove`).
+PROBE_SHARE = 0.2
+PROBE_MAX_S = 30.0
+#: Share of what is left, and most seconds per solve, of the pass that drops
+#: one supplier of the probe's design at a time.
+DROP_SHARE = 0.25
+DROP_MAX_S = 5.0
+
 
 @dataclass
 class Group:
@@ -284,7 +293,10 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
                 best.status = "not proven optimal"
                 return best
             try:
-                sol = _solve_reduced(problem, keep, tie, solver, left, start=best)
+                if left is None:
+                    sol = _solve_reduced(problem, keep, tie, solver, None, start=best)
+                else:
+                    sol = _probe_then_prove(problem, keep, tie, solver, left, best)
             except _NoDesignInTime:
                 if best is not None:
                     best.status = "not proven optimal"
@@ -306,6 +318,92 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
         if threshold >= top:
             return sol if sol is not None else _infeasible(solver)
         threshold = min(top, floor + 4.0 * (threshold - floor))
+
+
+def _probe_then_prove(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
+                      left: float, best: Solution | None) -> Solution:
+    """One threshold solve under a time limit: probe, drop suppliers, then prove.
+
+    A time-limited solve of a large problem can hold on to a design that pays
+    one order fee too many: the relaxation spreads the fees thinly, and the
+    search may not reach the cheaper supplier sets before the limit. So a
+    first solve gets a share of the time (:data:`PROBE_SHARE`, at most
+    :data:`PROBE_MAX_S`); a proven answer (or infeasibility) ends there. A
+    design it did not prove goes through :func:`_drop_suppliers`, and the
+    rest of the time goes to the full solve, started from the best design
+    so far. Every design tried is a design of the whole problem, so the
+    answer is never dearer than the probe's; it is exact whenever the last
+    solve proves it.
+    """
+    t0 = _clock()
+    try:
+        probe = _solve_reduced(problem, keep, tie, solver, min(PROBE_MAX_S, PROBE_SHARE * left), start=best)
+    except _NoDesignInTime:
+        probe = None
+    if probe is not None and probe.status != "not proven optimal":
+        return probe
+    start = best
+    if probe is not None:
+        start = _drop_suppliers(problem, keep, tie, solver, probe, min(DROP_SHARE * left, left - (_clock() - t0)))
+    rest = left - (_clock() - t0)
+    if rest <= 0:
+        if start is None:
+            raise _no_design_in_time(left)
+        start.status = "not proven optimal"
+        return start
+    try:
+        sol = _solve_reduced(problem, keep, tie, solver, rest, start=start)
+    except _NoDesignInTime:
+        if start is None:
+            raise
+        start.status = "not proven optimal"
+        return start
+    if sol.status == "not proven optimal" and start is not None and objective_value(problem, start) < objective_value(problem, sol):
+        start.status = "not proven optimal"
+        return start
+    return sol
+
+
+def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
+                    sol: Solution, budget: float) -> Solution:
+    """Try the design without each of its suppliers in turn; the cheapest design found.
+
+    Each try solves the problem with the offers of the other suppliers the
+    design uses only (a small set of suppliers solves fast: the hard part of
+    the whole problem is which fees to pay), capped at :data:`DROP_MAX_S`;
+    an improvement restarts the pass from the new design, until no drop
+    helps or ``budget`` seconds are spent. Every design found is a design
+    of the whole problem.
+    """
+    from partpick.optimize.prune import restrict
+
+    end = _clock() + budget
+    sub = restrict(problem, keep)
+    sub_tie = {g: tie[g][keep[g]] for g in tie}
+    best = sol
+    improved = True
+    while improved:
+        improved = False
+        for gone in sorted(best.suppliers_used):
+            left = end - _clock()
+            if left <= 0:
+                return best
+            allowed = set(best.suppliers_used) - {gone}
+            narrow = replace(sub, line_offers={line: [o for o in offers if o.supplier in allowed] for line, offers in sub.line_offers.items()},
+                             fees={s: f for s, f in sub.fees.items() if s in allowed})
+            try:
+                found = solve_model(narrow, sub_tie, solver, min(DROP_MAX_S, left))
+            except _NoDesignInTime:
+                continue
+            if found.status == "infeasible":
+                continue
+            found = _lift(found, keep)
+            if objective_value(problem, found) < objective_value(problem, best) - 1e-9:
+                best = found
+                best.status = "not proven optimal"
+                improved = True
+                break
+    return best
 
 
 def objective_value(problem: Problem, sol: Solution) -> float:
