@@ -55,7 +55,8 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         if args.objective:
             spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": args.objective})})
         revision = redesign(spec, catalog, previous, exclude=tuple(args.exclude), keep_footprints=args.keep_footprints,
-                            change_weight=getattr(args, "change_weight", None), solver=args.solver)
+                            change_weight=getattr(args, "change_weight", None), solver=args.solver,
+                            time_limit=getattr(args, "time_limit", None))
         result = revision.result
     else:
         result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver,
@@ -72,7 +73,8 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         return EXIT_INFEASIBLE
     from partpick.optimize.explain import compare_feeds
 
-    rep = build_report(result, catalog.file_sha256, args.solver, compare_feeds(result, catalog, tuple(args.exclude), args.solver))
+    limit = getattr(args, "time_limit", None)
+    rep = build_report(result, catalog.file_sha256, args.solver, compare_feeds(result, catalog, tuple(args.exclude), args.solver, limit))
     if revision is not None:
         rep["changes"] = [vars(c) for c in revision.changes]
         rep["no_drop_in"] = dict(revision.no_drop_in)
@@ -80,7 +82,7 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
     if getattr(args, "risk", False):
         from partpick.optimize.revise import stock_risk
 
-        rep["stock_risk"] = [vars(r) for r in stock_risk(result, args.solver)]
+        rep["stock_risk"] = [vars(r) for r in stock_risk(result, args.solver, limit)]
     write_outputs(term, args, result, rep)
     if term.quiet:
         term.always(f"{rep['totals']['total']:.2f} {rep['totals']['currency']}")
@@ -98,7 +100,8 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         from partpick.optimize.explain import alternatives
         from partpick.report.text import render_alternatives
 
-        alts = alternatives(result.spec, catalog, args.alternatives, tuple(args.exclude), args.solver)
+        alts = alternatives(result.spec, catalog, args.alternatives, tuple(args.exclude), args.solver, limit,
+                            first=result if revision is None else None)
         render_alternatives(term, [build_report(a, catalog.file_sha256, args.solver) for a in alts])
     return EXIT_OK
 

@@ -354,3 +354,81 @@ def test_tab_and_carriage_return_cells_are_neutralised_too():
     cells = [c for row in csv.reader(io.StringIO(bom_csv_text(rep), newline="")) for c in row]
     for hostile in ("\tSup", "\rX", "=1", "+r", "@R1", "-EUR"):
         assert "'" + hostile in cells and hostile not in cells
+
+
+# ----------------------------------------------------------------------------- one time limit for every search
+
+
+def both_feeds_spec(tmp_path: Path) -> Path:
+    """The bench example at 15 W: on the demo catalogue both bias feeds have designs."""
+    bench = next(e for e in EXAMPLES if e.name == "bench_2x25w_split.toml")
+    text = bench.read_text(encoding="utf-8")
+    assert "power_w = 25.0" in text
+    path = tmp_path / "both_feeds.toml"
+    path.write_text(text.replace("power_w = 25.0", "power_w = 15.0"), encoding="utf-8")
+    return path
+
+
+def test_time_limit_reaches_every_search_of_the_command(capsys, tmp_path, monkeypatch):
+    # The design, the other bias feed's design, each stock-risk re-solve and each
+    # alternative: every search the command makes gets the user's --time-limit.
+    from partpick.optimize import milp
+
+    real = milp.solve
+    limits = []
+
+    def spy(problem, solver="cbc", time_limit=None, prune=True):
+        limits.append(time_limit)
+        return real(problem, solver=solver, time_limit=time_limit, prune=prune)
+
+    monkeypatch.setattr(milp, "solve", spy)
+    monkeypatch.setattr("partpick.optimize.design.solve", spy)
+    code, out, err = design(capsys, tmp_path / "out", "--time-limit", "45", "--risk", "--alternatives", "3",
+                            spec=both_feeds_spec(tmp_path))
+    assert code == 0, err
+    rep = json.loads((tmp_path / "out" / "report.json").read_text(encoding="utf-8"))
+    assert rep["design"]["bias_feed_alternative"]["feasible"] is True  # its design was searched
+    # 1 design + 1 feed comparison + one re-solve per stock-risk row + 2 more alternatives
+    # (the first alternative is the design itself, not searched again).
+    assert len(limits) == 1 + 1 + len(rep["stock_risk"]) + 2
+    assert set(limits) == {45.0}
+
+
+def test_time_limit_without_a_design_for_the_other_feed_leaves_the_comparison_out(tmp_path, monkeypatch):
+    # A search that finds no design by the limit proves neither "feasible" nor
+    # "infeasible": the comparison is left out, never reported as either.
+    from partpick.catalog import load_catalog
+    from partpick.errors import SolverError
+    from partpick.optimize import design as design_mod, milp
+    from partpick.optimize.explain import compare_feeds
+    from partpick.spec import load_spec
+
+    catalog = load_catalog(DEMO_CATALOG)
+    result = design_mod.run(load_spec(both_feeds_spec(tmp_path)), catalog)
+    found = compare_feeds(result, catalog, time_limit=45.0)
+    assert found["feasible"] is True and "best" in found["reason"]  # with time, a proven comparison
+
+    def no_design(problem, solver="cbc", time_limit=None, prune=True):
+        raise SolverError("the solver stopped without a design")
+
+    monkeypatch.setattr(milp, "solve", no_design)
+    assert compare_feeds(result, catalog, time_limit=45.0) is None
+    with pytest.raises(SolverError):  # without a limit that cannot happen: a real fault propagates
+        compare_feeds(result, catalog)
+
+
+def test_stock_risk_says_when_no_design_was_found_in_time(monkeypatch):
+    from partpick.catalog import load_catalog
+    from partpick.errors import SolverError
+    from partpick.optimize import design as design_mod, milp
+    from partpick.optimize.revise import stock_risk
+    from partpick.spec import load_spec
+
+    result = design_mod.run(load_spec(MODULE), load_catalog(DEMO_CATALOG))
+
+    def no_design(problem, solver="cbc", time_limit=None, prune=True):
+        raise SolverError("no design within the time limit")
+
+    monkeypatch.setattr(milp, "solve", no_design)
+    risks = stock_risk(result, time_limit=7.0)
+    assert risks and all(r.total_without is None and r.replacement == "no design found within 7 s" for r in risks)

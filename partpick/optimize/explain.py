@@ -191,9 +191,18 @@ def _first_rejection(result: DesignResult, mpn: str, roles: list[str]) -> str | 
     return None
 
 
-def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] = (), solver: str = "cbc") -> list[DesignResult]:
-    """The n best distinct designs: each differs from the earlier ones in output pair or driver."""
-    first = run(spec, catalog, exclude=exclude, solver=solver)
+def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] = (), solver: str = "cbc",
+                 time_limit: float | None = None, first: DesignResult | None = None) -> list[DesignResult]:
+    """The n best distinct designs: each differs from the earlier ones in output pair or driver.
+
+    ``first``, the design already made for this spec and catalogue, is
+    reused instead of designed again. With ``time_limit`` every design gets
+    it; the list ends at the first search that finds no design by then.
+    """
+    from partpick.errors import SolverError
+
+    if first is None:
+        first = run(spec, catalog, exclude=exclude, solver=solver, time_limit=time_limit)
     out = [first] if first.feasible else []
     if not out:
         return out
@@ -206,7 +215,12 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
         last = out[-1].solution.choice
         same_pair = list(np.flatnonzero(k["pair_i"].to_numpy() == k["pair_i"].iloc[last["stage"]]))
         problem.forbidden.append({"stage": same_pair, "driver_opamp": [last["driver_opamp"]]})
-        sol = solve(problem, solver=solver)
+        try:
+            sol = solve(problem, solver=solver, time_limit=time_limit)
+        except SolverError:
+            if time_limit is None:
+                raise
+            break
         if sol.status == "infeasible":
             break
         check = check_chosen(first.spec, first.pool, first.targets, first.stage, first.assembly, sol.choice)
@@ -215,7 +229,8 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
     return out
 
 
-def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ...] = (), solver: str = "cbc") -> dict | None:
+def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ...] = (), solver: str = "cbc",
+                  time_limit: float | None = None) -> dict | None:
     """With ``bias_feed = "auto"``: the other feed's best design, or why it has none.
 
     The design's own assembled problem is solved again with the stage held to
@@ -225,10 +240,14 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     chosen configuration, with its numbers.
 
     Returns ``{"feed", "feasible", "total", "extra_cost", "reason"}`` for the
-    feed that was not chosen; None when the spec fixes the feed.
+    feed that was not chosen; None when the spec fixes the feed, or when
+    ``time_limit`` (the design's own) ran out before the other feed's search
+    found any design (neither "feasible" nor "infeasible" would be true). A
+    design found but not proven cheapest says so in ``reason``.
     """
     if result.spec.stage.bias_feed != "auto" or not result.feasible:
         return None
+    from partpick.errors import SolverError
     from partpick.evaluate.stage import feed_failure
     from partpick.optimize.milp import Coupling, solve
 
@@ -240,13 +259,18 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         problem = result.assembly.problem
         problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
         try:
-            alt = solve(problem, solver=solver)
+            alt = solve(problem, solver=solver, time_limit=time_limit)
+        except SolverError:
+            if time_limit is None:
+                raise
+            return None
         finally:
             problem.couplings.pop()
         if alt.status != "infeasible":
             extra = alt.total - result.solution.total
+            best = "best" if alt.status == "optimal" else f"cheapest (found within {time_limit:g} s, not proven optimal)"
             return {"feed": other, "feasible": True, "total": round(alt.total, 2), "extra_cost": round(extra, 2),
-                    "reason": f"the best {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
+                    "reason": f"the {best} {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
         reason = "no design with it meets the couplings with the other roles"
     else:
         reason = feed_failure(result.stage, k.iloc[result.solution.choice["stage"]], other)

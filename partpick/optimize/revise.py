@@ -120,8 +120,9 @@ def redesign(
     keep_footprints: bool = False,
     change_weight: float | None = None,
     solver: str = "cbc",
+    time_limit: float | None = None,
 ) -> Redesign:
-    """The design closest to ``previous``: fewest changed roles, then cost."""
+    """The design closest to ``previous``: fewest changed roles, then cost (each search within ``time_limit``)."""
     base = prepare(spec, catalog, exclude=exclude)
     if base.status != "prepared":
         return Redesign(base, [])
@@ -149,7 +150,7 @@ def redesign(
         cuts = {r: c for r, c in bad_by_role.items()}
         for r, (g, bad) in cuts.items():
             problem.couplings.append(Coupling(f"keep footprint {r}", {g: bad.astype(float)}, "<=", 0.0))
-        trial = finish(base, solver=solver)
+        trial = finish(base, solver=solver, time_limit=time_limit)
         if not trial.feasible:
             # Relax, one role at a time, the roles that have no drop-in at all.
             problem.couplings = [c for c in problem.couplings if not c.name.startswith("keep footprint")]
@@ -158,14 +159,14 @@ def redesign(
                     no_drop[r] = "no drop-in replacement in the catalogue"
                     continue
                 problem.couplings.append(Coupling(f"keep footprint {r}", {g: bad.astype(float)}, "<=", 0.0))
-            trial = finish(base, solver=solver)
+            trial = finish(base, solver=solver, time_limit=time_limit)
             for r in list(no_drop):
                 if trial.feasible:
                     new = ", ".join(m for m, _v in _option_roles(trial, role_group[r], trial.solution.choice[role_group[r]]).get(r, []))
                     no_drop[r] += f"; best non-drop-in: {new} (total {trial.solution.total:.2f} {trial.pool.currency})"
         result = trial
     else:
-        result = finish(base, solver=solver)
+        result = finish(base, solver=solver, time_limit=time_limit)
     changes = _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog) if result.feasible else []
     return Redesign(result, changes, no_drop)
 
@@ -245,13 +246,17 @@ class Risk:
     replacement: str | None
 
 
-def stock_risk(result: DesignResult, solver: str = "cbc") -> list[Risk]:
+def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | None = None) -> list[Risk]:
     """For each chosen non-passive line: who stocks enough, and the best design without it.
 
     The evaluation and the assembled problem are reused: each re-solve only
     forbids the options that use the part, which is the same as excluding it
-    (the evaluation's filters only remove what no design could use).
+    (the evaluation's filters only remove what no design could use). With
+    ``time_limit`` each re-solve gets it; one that finds no design by then
+    has no total and says so in ``replacement``, and a design not proven
+    cheapest is marked there too.
     """
+    from partpick.errors import SolverError
     asm, sol = result.assembly, result.solution
     problem = asm.problem
     families = set(result.pool.passives["family"])
@@ -272,13 +277,23 @@ def stock_risk(result: DesignResult, solver: str = "cbc") -> list[Risk]:
                     problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
             from partpick.optimize.milp import solve
 
-            alt = solve(problem, solver=solver)
-            problem.couplings = saved
+            try:
+                alt = solve(problem, solver=solver, time_limit=time_limit)
+            except SolverError:
+                if time_limit is None:
+                    raise
+                alt = None
+            finally:
+                problem.couplings = saved
             total = replacement = None
-            if alt.status != "infeasible":
+            if alt is None:
+                replacement = f"no design found within {time_limit:g} s"
+            elif alt.status != "infeasible":
                 total = alt.total
                 gg = g
                 roles = [asm.lines[l][0] for l, _q2, r in problem.groups[gg].usage[alt.choice[gg]] if r == role]
                 replacement = ", ".join(roles) or None
+                if alt.status != "optimal":
+                    replacement = f"{replacement or 'the same parts'} (not proven optimal)"
             risks.append(Risk(src, role, stocked, len(stocked) <= 1, total, replacement))
     return risks

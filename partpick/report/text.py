@@ -184,7 +184,8 @@ def render_risk(term: Terminal, rep: dict) -> None:
     for r in rep["stock_risk"]:
         n = len(r["suppliers_with_stock"])
         style = "red" if r["single_source"] else ""
-        without = f"{r['total_without']:.2f} {cur} with {r['replacement']}" if r["total_without"] is not None else "no design"
+        without = (f"{r['total_without']:.2f} {cur} with {r['replacement']}" if r["total_without"] is not None
+                   else r["replacement"] or "no design")
         t.add_row(Text(r["mpn"], style=style), r["role"].replace("_", " "), Text(f"{n} supplier{'s' if n != 1 else ''}", style=style), without)
     term.always(t)
 
