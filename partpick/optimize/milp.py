@@ -34,13 +34,11 @@ from partpick.optimize.buying import cheapest_purchase
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
 
-#: With a time limit, the share of what is left that a first, probing solve
-#: of a threshold problem may take, and its most seconds (:func:`_probe_then_prove`).
-PROBE_SHARE = 0.2
-PROBE_MAX_S = 30.0
-#: Share of what is left, and most seconds per solve, of the pass that drops
-#: one supplier of the probe's design at a time.
-DROP_SHARE = 0.25
+#: With a time limit, the share of what is left that the full solve of a
+#: threshold problem may take (:func:`_solve_then_drop`); the rest goes to the
+#: pass that drops one supplier of its design at a time, each try at most
+#: ``DROP_MAX_S`` seconds.
+SOLVE_SHARE = 0.75
 DROP_MAX_S = 5.0
 
 
@@ -296,7 +294,7 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
                 if left is None:
                     sol = _solve_reduced(problem, keep, tie, solver, None, start=best)
                 else:
-                    sol = _probe_then_prove(problem, keep, tie, solver, left, best)
+                    sol = _solve_then_drop(problem, keep, tie, solver, left, best)
             except _NoDesignInTime:
                 if best is not None:
                     best.status = "not proven optimal"
@@ -320,48 +318,24 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
         threshold = min(top, floor + 4.0 * (threshold - floor))
 
 
-def _probe_then_prove(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
-                      left: float, best: Solution | None) -> Solution:
-    """One threshold solve under a time limit: probe, drop suppliers, then prove.
+def _solve_then_drop(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
+                     left: float, best: Solution | None) -> Solution:
+    """One threshold solve under a time limit: the full solve, then the supplier-drop pass.
 
     A time-limited solve of a large problem can hold on to a design that pays
     one order fee too many: the relaxation spreads the fees thinly, and the
-    search may not reach the cheaper supplier sets before the limit. So a
-    first solve gets a share of the time (:data:`PROBE_SHARE`, at most
-    :data:`PROBE_MAX_S`); a proven answer (or infeasibility) ends there. A
-    design it did not prove goes through :func:`_drop_suppliers`, and the
-    rest of the time goes to the full solve, started from the best design
-    so far. Every design tried is a design of the whole problem, so the
-    answer is never dearer than the probe's; it is exact whenever the last
-    solve proves it.
+    search may not reach the cheaper supplier sets before the limit. So the
+    full solve gets :data:`SOLVE_SHARE` of the time left; a proven answer (or
+    infeasibility) ends there, and a design it did not prove goes through
+    :func:`_drop_suppliers` for the rest. The answer is never dearer than
+    the full solve's design; it is exact whenever that solve proves it.
     """
     t0 = _clock()
-    try:
-        probe = _solve_reduced(problem, keep, tie, solver, min(PROBE_MAX_S, PROBE_SHARE * left), start=best)
-    except _NoDesignInTime:
-        probe = None
-    if probe is not None and probe.status != "not proven optimal":
-        return probe
-    start = best
-    if probe is not None:
-        start = _drop_suppliers(problem, keep, tie, solver, probe, min(DROP_SHARE * left, left - (_clock() - t0)))
+    sol = _solve_reduced(problem, keep, tie, solver, SOLVE_SHARE * left, start=best)
+    if sol.status != "not proven optimal":
+        return sol
     rest = left - (_clock() - t0)
-    if rest <= 0:
-        if start is None:
-            raise _no_design_in_time(left)
-        start.status = "not proven optimal"
-        return start
-    try:
-        sol = _solve_reduced(problem, keep, tie, solver, rest, start=start)
-    except _NoDesignInTime:
-        if start is None:
-            raise
-        start.status = "not proven optimal"
-        return start
-    if sol.status == "not proven optimal" and start is not None and objective_value(problem, start) < objective_value(problem, sol):
-        start.status = "not proven optimal"
-        return start
-    return sol
+    return _drop_suppliers(problem, keep, tie, solver, sol, rest) if rest > 0 else sol
 
 
 def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
