@@ -10,6 +10,7 @@ import shutil
 import signal
 import subprocess
 import sys
+import tempfile
 import threading
 import time
 from pathlib import Path
@@ -186,6 +187,22 @@ def test_broken_or_killed_solver_names_the_alternative_and_writes_nothing(capsys
     assert words in err and "--solver highs" in err
     assert "Traceback" not in err and "internal error" not in err
     assert list((tmp_path / "out").iterdir()) == []
+
+
+@pytest.mark.parametrize("body", [CRASHES, KILLED, None])
+def test_no_solver_files_are_left_behind(capsys, tmp_path, monkeypatch, body):
+    # PuLP writes the model, start and answer files to the temporary folder and leaves
+    # them there when the solver program fails; every solve's files must go.
+    scratch = tmp_path / "scratch"
+    scratch.mkdir()
+    for var in ("TMPDIR", "TMP", "TEMP"):
+        monkeypatch.setenv(var, str(scratch))
+    monkeypatch.setattr(tempfile, "tempdir", str(scratch))
+    if body is not None:
+        monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, body)))
+    code, _, err = design(capsys, tmp_path / "out")
+    assert code == (0 if body is None else 1), err
+    assert list(scratch.iterdir()) == []
 
 
 def test_missing_solver_program_names_the_alternative(capsys, tmp_path, monkeypatch):

@@ -22,6 +22,8 @@ solver's search path.
 from __future__ import annotations
 
 import math
+import shutil
+import tempfile
 import time
 from dataclasses import dataclass, field, replace
 
@@ -137,11 +139,18 @@ def _solver(name: str, time_limit: float | None, warm: bool = False):
 
 
 def _run(m: pulp.LpProblem, sol, name: str) -> int:
-    """Solve ``m``; a missing, broken or killed solver program is a :class:`SolverError`."""
+    """Solve ``m``; a missing, broken or killed solver program is a :class:`SolverError`.
+
+    The solver's model, start and answer files go to a folder of this solve
+    alone, removed afterwards whatever happened (PuLP leaves them behind
+    when the solver program fails or the run is interrupted).
+    """
     other = "highs" if name == "cbc" else "cbc"
     if not sol.available():
         where = getattr(sol, "path", None) or name
         raise SolverError(f"the {name} solver program is missing or cannot be run ({where}); use --solver {other}")
+    folder = tempfile.mkdtemp(prefix="partpick-solve-")
+    sol.tmpDir = folder
     try:
         return m.solve(sol)
     except pulp.PulpSolverError:
@@ -149,6 +158,8 @@ def _run(m: pulp.LpProblem, sol, name: str) -> int:
             f"the {name} solver stopped abnormally (it crashed or was killed) and gave no design; "
             f"run again or use --solver {other}"
         ) from None
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)
 
 
 def _found(m: pulp.LpProblem, time_limit: float | None) -> bool:
