@@ -135,12 +135,17 @@ def run_evaluate(args: argparse.Namespace, term: Terminal) -> int:
         write_all({Path(args.json): report_json(rep)})
     if result.feasible:
         term.print("Evaluated selection: " + ", ".join(f"{r}={m}" for r, m in forced.items()))
-        render_design(term, rep)
+        render_design(term, rep, given=True)
         return EXIT_OK
     term.always(labelled("The selection is not feasible.", "bold red"))
     for role, mpn in forced.items():
         ans = why(spec, catalog, mpn)
-        term.always(f"- {role} {mpn}: {ans.reason}")
+        if ans.role is not None and ans.role != role:
+            # The part serves this spec in another role only: say so, not that role's verdict alone.
+            term.always(f"- {role} {mpn}: no {role.replace('_', ' ')} option of this spec uses it; "
+                        f"as {ans.role.replace('_', ' ')}: {ans.reason}")
+        else:
+            term.always(f"- {role} {mpn}: {ans.reason}")
     return EXIT_INFEASIBLE
 
 

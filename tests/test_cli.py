@@ -269,3 +269,36 @@ def test_output_onto_the_spec_file_is_refused(capsys, tmp_path):
     assert code == 2
     assert "refusing to write" in err
     assert spec.read_bytes() == before
+
+
+def test_evaluate_checks_the_given_part_and_never_beats_the_free_design(capsys, tmp_path):
+    # The module example on the demo catalogue: the free design, then the same spec with
+    # its output NPN fixed to another pair that passes. A design with a part fixed is
+    # chosen from a subset of the free one's options, so it cannot cost less; the panel
+    # must not call it "optimal" as if nothing had been fixed.
+    spec = next(e for e in EXAMPLES if e.name == "module_60w_4ohm_reactive.toml")
+    assert main(["--no-color", "design", str(spec), "--json", str(tmp_path / "free.json")]) == 0
+    capsys.readouterr()
+    free = json.loads((tmp_path / "free.json").read_text(encoding="utf-8"))
+    chosen = next(p["mpn"] for p in free["parts"] if p["role"] == "output_npn")
+    other = "VTD5200N"  # an output pair of the demo catalogue that passes this spec
+    assert chosen != other
+    code = main(["--no-color", "evaluate", str(spec), "--part", f"output_npn={other}", "--json", str(tmp_path / "given.json")])
+    out = capsys.readouterr().out
+    assert code == 0
+    given = json.loads((tmp_path / "given.json").read_text(encoding="utf-8"))
+    assert next(p["mpn"] for p in given["parts"] if p["role"] == "output_npn") == other
+    assert given["totals"]["total"] >= free["totals"]["total"] - 1e-9
+    assert "cheapest with the given parts" in out and "Evaluated selection: output_npn=" + other in out
+
+
+def test_evaluate_says_when_the_part_serves_another_role_only(capsys):
+    # VT2218N is a small pair of the demo catalogue: the module spec can use it as a
+    # current-source transistor, never as an output device. Asked as output_npn, the
+    # answer must say that, not only "feasible but not the cheapest" (its verdict as a
+    # current source) under "not feasible".
+    spec = next(e for e in EXAMPLES if e.name == "module_60w_4ohm_reactive.toml")
+    code = main(["--no-color", "evaluate", str(spec), "--part", "output_npn=VT2218N"])
+    out = " ".join(capsys.readouterr().out.split())
+    assert code == 4
+    assert "no output npn option of this spec uses it; as bias source transistor:" in out

@@ -26,7 +26,8 @@ def _f(x, fmt: str = "{:.2f}", none: str = "-") -> str:
     return none if x is None else fmt.format(x)
 
 
-def render_design(term: Terminal, rep: dict) -> None:
+def render_design(term: Terminal, rep: dict, given: bool = False) -> None:
+    """The design panel, parts and order; ``given``: some parts were fixed by the user (``evaluate``)."""
     d = rep["design"]
     cur = rep["totals"]["currency"]
     rails = (
@@ -51,7 +52,10 @@ def render_design(term: Terminal, rep: dict) -> None:
     for r in rows:
         grid.add_row(*r)
     title = Text(rep["spec"]["name"])
-    sub = Text("optimal") if rep.get("optimal") else Text("not proven optimal", style="yellow")
+    if not rep.get("optimal"):
+        sub = Text("not proven optimal", style="yellow")
+    else:
+        sub = Text("cheapest with the given parts" if given else "optimal")
     term.print(Panel(grid, title=title, subtitle=sub, expand=False))
     alt = d.get("bias_feed_alternative")
     if alt:
