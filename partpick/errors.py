@@ -38,3 +38,11 @@ class UsageError(Exception):
 
 class SolverError(Exception):
     """The solver is missing, broken, or ran out of time without any design."""
+
+
+class SolverTimeout(SolverError):
+    """The time limit ran out before the solver found any design (neither feasible nor infeasible is known)."""
+
+    def __init__(self, time_limit: float):
+        super().__init__(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
+        self.time_limit = time_limit

@@ -415,7 +415,7 @@ def test_time_limit_without_a_design_for_the_other_feed_leaves_the_comparison_ou
     # A search that finds no design by the limit proves neither "feasible" nor
     # "infeasible": the comparison is left out, never reported as either.
     from partpick.catalog import load_catalog
-    from partpick.errors import SolverError
+    from partpick.errors import SolverError, SolverTimeout
     from partpick.optimize import design as design_mod, milp
     from partpick.optimize.explain import compare_feeds
     from partpick.spec import load_spec
@@ -426,17 +426,23 @@ def test_time_limit_without_a_design_for_the_other_feed_leaves_the_comparison_ou
     assert found["feasible"] is True and "best" in found["reason"]  # with time, a proven comparison
 
     def no_design(problem, solver="cbc", time_limit=None, prune=True):
-        raise SolverError("the solver stopped without a design")
+        raise SolverTimeout(time_limit)
 
     monkeypatch.setattr(milp, "solve", no_design)
     assert compare_feeds(result, catalog, time_limit=45.0) is None
-    with pytest.raises(SolverError):  # without a limit that cannot happen: a real fault propagates
-        compare_feeds(result, catalog)
+
+    def crashed(problem, solver="cbc", time_limit=None, prune=True):
+        raise SolverError("the solver stopped without a design")
+
+    monkeypatch.setattr(milp, "solve", crashed)
+    for limit in (None, 45.0):  # a real fault propagates, with a limit or without
+        with pytest.raises(SolverError):
+            compare_feeds(result, catalog, time_limit=limit)
 
 
 def test_stock_risk_says_when_no_design_was_found_in_time(monkeypatch):
     from partpick.catalog import load_catalog
-    from partpick.errors import SolverError
+    from partpick.errors import SolverTimeout
     from partpick.optimize import design as design_mod, milp
     from partpick.optimize.revise import stock_risk
     from partpick.spec import load_spec
@@ -444,7 +450,7 @@ def test_stock_risk_says_when_no_design_was_found_in_time(monkeypatch):
     result = design_mod.run(load_spec(MODULE), load_catalog(DEMO_CATALOG))
 
     def no_design(problem, solver="cbc", time_limit=None, prune=True):
-        raise SolverError("no design within the time limit")
+        raise SolverTimeout(time_limit)
 
     monkeypatch.setattr(milp, "solve", no_design)
     risks = stock_risk(result, time_limit=7.0)

@@ -199,7 +199,7 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
     reused instead of designed again. With ``time_limit`` every design gets
     it; the list ends at the first search that finds no design by then.
     """
-    from partpick.errors import SolverError
+    from partpick.errors import SolverTimeout
 
     if first is None:
         first = run(spec, catalog, exclude=exclude, solver=solver, time_limit=time_limit)
@@ -217,9 +217,7 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
         problem.forbidden.append({"stage": same_pair, "driver_opamp": [last["driver_opamp"]]})
         try:
             sol = solve(problem, solver=solver, time_limit=time_limit)
-        except SolverError:
-            if time_limit is None:
-                raise
+        except SolverTimeout:
             break
         if sol.status == "infeasible":
             break
@@ -247,7 +245,7 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     """
     if result.spec.stage.bias_feed != "auto" or not result.feasible:
         return None
-    from partpick.errors import SolverError
+    from partpick.errors import SolverTimeout
     from partpick.evaluate.stage import feed_failure
     from partpick.optimize.milp import Coupling, solve
 
@@ -260,9 +258,7 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
         try:
             alt = solve(problem, solver=solver, time_limit=time_limit)
-        except SolverError:
-            if time_limit is None:
-                raise
+        except SolverTimeout:
             return None
         finally:
             problem.couplings.pop()

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 import pulp
 
-from partpick.errors import SolverError, UsageError
+from partpick.errors import SolverError, SolverTimeout, UsageError
 from partpick.optimize.buying import cheapest_purchase
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
@@ -174,16 +174,8 @@ def _found(m: pulp.LpProblem, time_limit: float | None) -> bool:
     if m.status == pulp.LpStatusInfeasible or m.sol_status == pulp.LpSolutionInfeasible:
         return False
     if time_limit is not None:
-        raise _no_design_in_time(time_limit)
+        raise SolverTimeout(time_limit)
     raise SolverError(f"the solver stopped without a design ({pulp.LpStatus[m.status]}); run again or use the other --solver")
-
-
-class _NoDesignInTime(SolverError):
-    """The time limit ran out before the solver found any design."""
-
-
-def _no_design_in_time(time_limit: float) -> SolverError:
-    return _NoDesignInTime(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
 
 
 def line_need(problem: Problem, choice: dict[str, int]) -> dict[str, float]:
@@ -297,21 +289,14 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
             keep = reduce.compose(inside, reduce.dominated(sub, {g: tie[g][inside[g]] for g in tie}))
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
-                if best is None:
-                    raise _no_design_in_time(time_limit)
-                best.status = "not proven optimal"
-                return best
+                return _out_of_time(best, time_limit)
             try:
                 if left is None:
                     sol = _solve_reduced(problem, keep, tie, solver, None, start=best)
                 else:
                     sol = _solve_then_drop(problem, keep, tie, solver, left, best)
-            except _NoDesignInTime:
-                if best is not None:
-                    best.status = "not proven optimal"
-                    return best
-                # The message names the user's limit, not what was left of it.
-                raise _no_design_in_time(time_limit) from None
+            except SolverTimeout:
+                return _out_of_time(best, time_limit)
             if sol.status == "not proven optimal":
                 if best is not None and objective_value(problem, best) < objective_value(problem, sol):
                     best.status = "not proven optimal"
@@ -327,6 +312,14 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
         if threshold >= top:
             return sol if sol is not None else _infeasible(solver)
         threshold = min(top, floor + 4.0 * (threshold - floor))
+
+
+def _out_of_time(best: Solution | None, time_limit: float) -> Solution:
+    """The best design found, not proven optimal; none found: :class:`SolverTimeout` naming the user's limit."""
+    if best is None:
+        raise SolverTimeout(time_limit)
+    best.status = "not proven optimal"
+    return best
 
 
 def _solve_then_drop(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
@@ -378,7 +371,7 @@ def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str
                              fees={s: f for s, f in sub.fees.items() if s in allowed})
             try:
                 found = solve_model(narrow, sub_tie, solver, min(DROP_MAX_S, left))
-            except _NoDesignInTime:
+            except SolverTimeout:
                 continue
             if found.status == "infeasible":
                 continue

@@ -341,13 +341,13 @@ class _GroupView:
         rows, cols = np.nonzero((lb != la) & out[:, None])
         if not len(rows):
             return out
+        better, worse, need = lb[rows, cols], la[rows, cols], self.need[a[rows], cols]
         # One int64 key per (better line, worse line, need) triple: a 1-D unique is
         # far cheaper than a row-wise one on large groups.
-        n_lines, need = len(self.line_names) + 1, self.need[a[rows], cols]
-        span = int(need.max()) + 1
-        key = ((lb[rows, cols] + 1) * n_lines + (la[rows, cols] + 1)) * span + need
-        unique, inverse = np.unique(key, return_inverse=True)
-        triples = zip((unique // span // n_lines - 1).tolist(), (unique // span % n_lines - 1).tolist(), (unique % span).tolist())
+        n_lines, span = len(self.line_names) + 1, int(need.max()) + 1
+        key = ((better + 1) * n_lines + (worse + 1)) * span + need
+        _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
+        triples = zip(better[first].tolist(), worse[first].tolist(), need[first].tolist())
         fine = np.array([self._no_dearer(*t) for t in triples], dtype=bool)
         out[rows[~fine[inverse.ravel()]]] = False
         return out

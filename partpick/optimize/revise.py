@@ -256,7 +256,8 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     has no total and says so in ``replacement``, and a design not proven
     cheapest is marked there too.
     """
-    from partpick.errors import SolverError
+    from partpick.errors import SolverTimeout
+
     asm, sol = result.assembly, result.solution
     problem = asm.problem
     families = set(result.pool.passives["family"])
@@ -279,9 +280,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
 
             try:
                 alt = solve(problem, solver=solver, time_limit=time_limit)
-            except SolverError:
-                if time_limit is None:
-                    raise
+            except SolverTimeout:
                 alt = None
             finally:
                 problem.couplings = saved

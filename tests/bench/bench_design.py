@@ -584,7 +584,6 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--solve-limit", type=float, default=300.0,
                     help="seconds the search of one design may take (partpick's --time-limit; the unpruned route too)")
     ap.add_argument("--unpruned-sizes", default="small,medium", help="sizes on which the unpruned MILP route runs")
-    ap.add_argument("--no-unpruned", action="store_true", help=argparse.SUPPRESS)
     ap.add_argument("--memory-limit", type=float, default=8.0, help="address-space limit of each worker in GiB")
     ap.add_argument("--worker", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
@@ -592,7 +591,7 @@ def main(argv: list[str] | None = None) -> int:
         cap = int(args.memory_limit * 2**30)
         resource.setrlimit(resource.RLIMIT_AS, (cap, cap))
         m = measure_size(args.worker, Path(args.spec), args.repeat, args.seed, args.solver, args.exhaustive_limit,
-                         args.solve_limit, unpruned=not args.no_unpruned, limit_gib=args.memory_limit)
+                         args.solve_limit, unpruned=args.worker in args.unpruned_sizes.split(","), limit_gib=args.memory_limit)
         print("RESULT " + json.dumps(m))
         return 0
     status = 0
@@ -603,9 +602,7 @@ def main(argv: list[str] | None = None) -> int:
         cmd = [sys.executable, str(Path(__file__).resolve()), "--worker", size, "--repeat", str(args.repeat),
                "--spec", args.spec, "--seed", str(args.seed), "--solver", args.solver,
                "--exhaustive-limit", str(args.exhaustive_limit), "--solve-limit", str(args.solve_limit),
-               "--memory-limit", str(args.memory_limit)]
-        if size not in args.unpruned_sizes.split(","):
-            cmd.append("--no-unpruned")
+               "--memory-limit", str(args.memory_limit), "--unpruned-sizes", args.unpruned_sizes]
         proc = subprocess.run(cmd, capture_output=True, text=True)
         found = [line for line in proc.stdout.splitlines() if line.startswith("RESULT ")]
         if proc.returncode or not found:

@@ -32,7 +32,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from partpick.errors import SolverError
+from partpick.errors import SolverError, SolverTimeout
 from partpick.optimize import milp
 from partpick.optimize.milp import (
     Coupling,
@@ -843,11 +843,7 @@ def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypa
     # optimum 10.00 lies above it: a second solve follows at 10.00 plus the margin. That
     # one is made to stop "unproven" with a dearer design, as a time limit could; the
     # design of the first solve comes back, marked not proven optimal.
-    a = Group("a", ["a0", "a1", "a2"], [[("LA", 1.0, "r")], [("LA1", 1.0, "r")], [("LA2", 1.0, "r")]])
-    b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
-    offers = {"LA": [Offer("S1", 1, 1.0, 10, 1)], "LA1": [Offer("S2", 1, 4.0, 10, 1)],
-              "LA2": [Offer("S1", 1, 20.0, 10, 1)], "LB": [Offer("S2", 1, 1.0, 10, 1)]}
-    p = Problem({"a": a, "b": b}, [], offers, {"S1": 5.0, "S2": 5.0}, 1.0)
+    p = _two_solve_problem()
     assert brute_force(p).cost == pytest.approx(10.0)
     calls = []
     real = milp.solve_model
@@ -937,7 +933,7 @@ def test_a_later_solve_without_a_design_in_time_keeps_the_design_found(monkeypat
     def fake(problem, tie, solver="cbc", time_limit=None, start=None):
         calls.append(time_limit)
         if len(calls) >= 2:
-            raise milp._no_design_in_time(time_limit)
+            raise SolverTimeout(time_limit)
         return real(problem, tie, solver, None, start=start)
 
     monkeypatch.setattr(milp, "solve_model", fake)
