@@ -271,7 +271,7 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     """
     from partpick.optimize import prune as reduce
 
-    bound = reduce.lower_bounds(problem)
+    bound = reduce.design_bounds(problem)
     floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
     finite = np.concatenate([b[np.isfinite(b)] for b in bound.values()])
     if not math.isfinite(floor) or not len(finite):

@@ -15,10 +15,12 @@ the whole problem:
   no dearer at any supplier (:func:`line_no_dearer`). Swapping ``a`` for ``b``
   in any design then keeps it feasible, costs no more and lowers the
   tie-break term, so an optimal design never holds ``a``.
-- **Cost bounds** (:func:`lower_bounds`): every option gets a lower bound on
-  the cost of any design that holds it (its own lines at their cheapest,
-  the cheapest compatible children and parent, the cheapest option of every
-  other group; couplings and order fees ignored). ``milp.solve`` solves the
+- **Cost bounds** (:func:`design_bounds`): every option gets a lower bound on
+  the cost of any design that holds it: the parts (:func:`lower_bounds`: its
+  own lines at their cheapest, the cheapest compatible children and parent,
+  the cheapest option of every other group; couplings ignored) plus the
+  order fees (:func:`fee_floors`: the cheapest set of suppliers that can
+  sell its lines and some option of every other group). ``milp.solve`` solves the
   problem restricted to the options below a threshold and widens the
   threshold until the optimum found lies below it by more than the largest
   tie-break term: then no left-out option can be part of an optimal design.
@@ -36,6 +38,8 @@ from partpick.optimize.milp import Coupling, Group, Problem
 
 #: Largest number of options compared pairwise in one block of a group.
 BLOCK_PAIRS = 4_000_000
+#: Most suppliers whose every subset :func:`fee_floors` enumerates (2**n sets).
+FEE_SUBSETS_MAX_SUPPLIERS = 12
 #: Largest table (distinct coupling rows of one group x options of the other) :func:`coupled_pairs` builds.
 MAX_PAIR_CELLS = 50_000_000
 
@@ -234,6 +238,99 @@ def lower_bounds(problem: Problem) -> dict[str, np.ndarray]:
             bound = bound + _min_over_parents(problem, g, rest)
         out[g] = bound
     return out
+
+
+# --------------------------------------------------------------------------- fee floors
+
+
+def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
+    """For each option, a lower bound on the order fees of any design that holds it.
+
+    A design pays the fee of every supplier it buys from, and each line it
+    needs is bought from a supplier with a usable offer for it. So the fees
+    of a design holding option ``o`` are at least the least total fee of a
+    supplier set that sells every line of ``o`` and, for every other group,
+    every line of at least one of its options (compatibility and couplings
+    left out, which can only lower the bound). With up to
+    :data:`FEE_SUBSETS_MAX_SUPPLIERS` suppliers every set is enumerated (a
+    bit mask per set); with more, the bound falls back to the largest, over
+    the lines the design must buy, of the cheapest fee of a seller of that
+    line. ``inf`` marks options whose lines no supplier set can sell.
+    """
+    suppliers = sorted(problem.fees)
+    if len(suppliers) > FEE_SUBSETS_MAX_SUPPLIERS:
+        return _fee_floors_one_seller(problem)
+    code = {s: i for i, s in enumerate(suppliers)}
+    sets = np.arange(1 << len(suppliers), dtype=np.int64)
+    fee = np.zeros(len(sets))
+    for s, i in code.items():
+        fee[(sets >> i) & 1 == 1] += float(problem.fees[s])
+    sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
+    # Per group: the distinct seller-mask sets of its options, and each option's one.
+    keys: dict[str, list[tuple[int, ...]]] = {}
+    key_of: dict[str, np.ndarray] = {}
+    for g, grp in problem.groups.items():
+        index: dict[tuple[int, ...], int] = {}
+        of = np.empty(len(grp), dtype=np.int64)
+        for o, usage in enumerate(grp.usage):
+            key = tuple(sorted({sellers.get(line, 0) for line, _q, _r in usage}))
+            of[o] = index.setdefault(key, len(index))
+        keys[g], key_of[g] = list(index), of
+    memo: dict[tuple[int, ...], np.ndarray] = {}
+
+    def can_sell(key: tuple[int, ...]) -> np.ndarray:
+        """Which supplier sets sell every line of an option with these seller masks."""
+        if key not in memo:
+            ok = np.ones(len(sets), dtype=bool)
+            for m in key:
+                ok &= (sets & m) != 0
+            memo[key] = ok
+        return memo[key]
+
+    some = {g: np.logical_or.reduce([can_sell(k) for k in ks]) if ks else np.zeros(len(sets), bool) for g, ks in keys.items()}
+    out = {}
+    for g in problem.groups:
+        others = np.ones(len(sets), dtype=bool)
+        for h, ok in some.items():
+            if h != g:
+                others &= ok
+        per_key = np.array([float(fee[can_sell(k) & others].min()) if (can_sell(k) & others).any() else math.inf
+                            for k in keys[g]])
+        out[g] = per_key[key_of[g]] if len(per_key) else np.zeros(0)
+    return out
+
+
+def _mask(offers, code: dict[str, int]) -> int:
+    """Bit mask of the suppliers with a usable offer."""
+    m = 0
+    for s, *_rest in usable(offers):
+        if s in code:
+            m |= 1 << code[s]
+    return m
+
+
+def _fee_floors_one_seller(problem: Problem) -> dict[str, np.ndarray]:
+    """The fallback of :func:`fee_floors`: each needed line has an open seller, so its cheapest fee is paid."""
+    cheapest = {}
+    for line, offers in problem.line_offers.items():
+        fees = [float(problem.fees[s]) for s, *_rest in usable(offers) if s in problem.fees]
+        cheapest[line] = min(fees, default=math.inf)
+    own = {g: np.array([max((cheapest.get(line, math.inf) for line, _q, _r in usage), default=0.0) for usage in grp.usage])
+           for g, grp in problem.groups.items()}
+    least = {g: float(v.min()) if len(v) else math.inf for g, v in own.items()}
+    return {g: np.maximum(v, max((least[h] for h in own if h != g), default=0.0)) for g, v in own.items()}
+
+
+def design_bounds(problem: Problem) -> dict[str, np.ndarray]:
+    """For each option, a lower bound on the whole objective of a design holding it.
+
+    :func:`lower_bounds` (parts and weighted changes) plus :func:`fee_floors`
+    (order fees): the two bound different terms of the objective, so their
+    sum bounds it.
+    """
+    parts = lower_bounds(problem)
+    fees = fee_floors(problem)
+    return {g: parts[g] + fees[g] for g in parts}
 
 
 # --------------------------------------------------------------------------- dominance

@@ -838,12 +838,12 @@ def cheapest_plan(problem: Problem, need: dict[str, int]) -> list[Purchase] | No
 def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypatch) -> None:
     # Hand-worked: a0 (line LA, S1 only, 1.00), a1 (LA1, S2, 4.00) or a2 (LA2, S1, 20.00),
     # with b0 (LB, S2, 1.00); both fees 5.00. (a0, b0) = 1 + 1 + 10 = 12.00,
-    # (a1, b0) = 4 + 1 + 5 = 10.00, (a2, b0) = 31.00. Cost bounds leave fees out (a0 2,
-    # a1 5, a2 21, b0 2), so the first threshold, 2 + 1 + 5 = 8, leaves a2 out and its
+    # (a1, b0) = 4 + 1 + 5 = 10.00, (a2, b0) = 31.00. With the parts-only cost bounds
+    # (_two_solve_problem: a0 2, a1 5, a2 21, b0 2) the first threshold, 2 + 1 + 5 = 8, leaves a2 out and its
     # optimum 10.00 lies above it: a second solve follows at 10.00 plus the margin. That
     # one is made to stop "unproven" with a dearer design, as a time limit could; the
     # design of the first solve comes back, marked not proven optimal.
-    p = _two_solve_problem()
+    p = _two_solve_problem(monkeypatch)
     assert brute_force(p).cost == pytest.approx(10.0)
     calls = []
     real = milp.solve_model
@@ -864,8 +864,16 @@ def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypa
     assert sol.choice == {"a": 1, "b": 0}
 
 
-def _two_solve_problem() -> Problem:
-    """The hand-worked problem above: its threshold loop solves twice, optimum (a1, b0) at 10.00."""
+def _two_solve_problem(monkeypatch) -> Problem:
+    """The hand-worked problem above: its threshold loop solves twice, optimum (a1, b0) at 10.00.
+
+    The loop runs on the parts-only bounds (``prune.lower_bounds``, valid but
+    weaker than ``design_bounds``, whose fee floors would prove (a1, b0) in
+    one solve): these tests are about the loop, and need its second solve.
+    """
+    from partpick.optimize import prune
+
+    monkeypatch.setattr(prune, "design_bounds", prune.lower_bounds)
     a = Group("a", ["a0", "a1", "a2"], [[("LA", 1.0, "r")], [("LA1", 1.0, "r")], [("LA2", 1.0, "r")]])
     b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
     offers = {"LA": [Offer("S1", 1, 1.0, 10, 1)], "LA1": [Offer("S2", 1, 4.0, 10, 1)],
@@ -893,7 +901,7 @@ def test_the_time_limit_bounds_the_whole_threshold_loop(monkeypatch, first_takes
 
     monkeypatch.setattr(milp, "_clock", lambda: now[0])
     monkeypatch.setattr(milp, "solve_model", fake)
-    sol = milp.solve(_two_solve_problem(), "cbc", time_limit=10.0)
+    sol = milp.solve(_two_solve_problem(monkeypatch), "cbc", time_limit=10.0)
     assert len(limits) == solves
     assert milp.SOLVE_SHARE == 0.75
     assert limits[0] == pytest.approx(0.75 * 10.0)
@@ -917,7 +925,7 @@ def test_no_design_when_the_time_limit_is_spent_is_an_error(monkeypatch) -> None
 
     monkeypatch.setattr(milp, "_clock", lambda: now[0])
     monkeypatch.setattr(milp, "solve_model", fake)
-    p = _two_solve_problem()
+    p = _two_solve_problem(monkeypatch)
     monkeypatch.setattr(milp, "_found", lambda m, t: False)
     with pytest.raises(SolverError, match="no design within the time limit"):
         milp.solve(p, "cbc", time_limit=10.0)
@@ -937,7 +945,7 @@ def test_a_later_solve_without_a_design_in_time_keeps_the_design_found(monkeypat
         return real(problem, tie, solver, None, start=start)
 
     monkeypatch.setattr(milp, "solve_model", fake)
-    sol = milp.solve(_two_solve_problem(), "cbc", time_limit=10.0)
+    sol = milp.solve(_two_solve_problem(monkeypatch), "cbc", time_limit=10.0)
     assert len(calls) == 2
     assert sol.status == "not proven optimal"
     assert sol.total == pytest.approx(10.0) and sol.choice == {"a": 1, "b": 0}
@@ -985,6 +993,6 @@ def test_without_a_time_limit_there_is_no_drop_pass(monkeypatch) -> None:
         return real(problem, tie, solver, time_limit, start=start)
 
     monkeypatch.setattr(milp, "solve_model", fake)
-    sol = milp.solve(_two_solve_problem(), "cbc")
+    sol = milp.solve(_two_solve_problem(monkeypatch), "cbc")
     assert limits == [None, None]
     assert sol.status == "optimal" and sol.total == pytest.approx(10.0)

@@ -8,6 +8,7 @@ test module's own line pricer (a dynamic programme written apart from
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import replace
 
@@ -18,8 +19,16 @@ from hypothesis import strategies as st
 
 from partpick.optimize import prune
 from partpick.optimize.buying import cheapest_purchase, line_no_dearer
-from partpick.optimize.milp import Coupling, Group, Offer, Problem, check_choice, solve, tie_weights
-from optimize.test_milp_exhaustive import SETTINGS, brute_force, cheapest_line_cost, distinct_lines, problems
+from partpick.optimize.milp import Coupling, Group, Offer, Problem, ceil_units, check_choice, line_need, solve, tie_weights
+from optimize.test_milp_exhaustive import (
+    SETTINGS,
+    LinePricer,
+    brute_force,
+    cheapest_line_cost,
+    distinct_lines,
+    problems,
+    supplier_subsets,
+)
 
 COST_TOL = 1e-6
 
@@ -59,16 +68,68 @@ def test_pruning_with_weighted_changes_keeps_the_optimum(problem: Problem, weigh
 
 @settings(**SETTINGS)
 @given(problems())
-def test_lower_bounds_never_exceed_a_design_holding_the_option(problem: Problem) -> None:
-    bounds = prune.lower_bounds(problem)
+def test_cost_bounds_never_exceed_a_design_holding_the_option(problem: Problem) -> None:
+    """The parts-only bounds and the bounds with fee floors, against brute force."""
+    parts, whole = prune.lower_bounds(problem), prune.design_bounds(problem)
     for g, grp in problem.groups.items():
         for o in range(len(grp)):
-            forced = replace(problem, forced={**problem.forced, g: o}) if g not in problem.forced else problem
             if g in problem.forced and problem.forced[g] != o:
                 continue
-            best = brute_force(forced, "cost")
+            best = brute_force(replace(problem, forced={**problem.forced, g: o}), "cost")
             if best is not None:
-                assert bounds[g][o] <= best.cost + 1e-9, (g, o)
+                assert parts[g][o] <= whole[g][o] <= best.cost + 1e-9, (g, o)
+
+
+def _least_fees_holding(problem: Problem, g: str, o: int) -> float:
+    """Brute force: the least order fees over every feasible design holding option ``o`` of ``g``.
+
+    A design's fees are those of the cheapest supplier set (by fees) that can
+    buy all its needs (the exact line pricer over that set is finite).
+    """
+    pricer = LinePricer(problem)
+    sets = sorted(supplier_subsets(problem), key=lambda y: sum(problem.fees[s] for s in y))
+    names = list(problem.groups)
+    least = math.inf
+    for combo in itertools.product(*(range(len(problem.groups[h])) for h in names)):
+        choice = dict(zip(names, combo))
+        if choice[g] != o or any(choice[h] != f for h, f in problem.forced.items()):
+            continue
+        if any(all(choice[h] in opts for h, opts in cut.items()) for cut in problem.forbidden) or check_choice(problem, choice):
+            continue
+        need = {line: ceil_units(q) for line, q in line_need(problem, choice).items() if ceil_units(q) > 0}
+        for y in sets:
+            if all(math.isfinite(pricer(line, q, y)) for line, q in need.items()):
+                least = min(least, sum(problem.fees[s] for s in y))
+                break
+    return least
+
+
+@settings(**SETTINGS)
+@given(problems(), st.booleans())
+def test_fee_floors_never_exceed_the_fees_of_a_design_holding_the_option(problem: Problem, fallback: bool) -> None:
+    """Against brute force, for the subset enumeration and for the one-seller fallback."""
+    floors = prune._fee_floors_one_seller(problem) if fallback else prune.fee_floors(problem)
+    for g, grp in problem.groups.items():
+        for o in range(len(grp)):
+            assert floors[g][o] <= _least_fees_holding(problem, g, o) + 1e-9, (g, o)
+
+
+def test_fee_floors_by_hand() -> None:
+    """Option a0 sells only at S2 (fee 20); b0 at S0 (fee 3) or S1 (fee 5); b1 at S1 only."""
+    a = Group("a", ["a0", "a1"], [[("LA0", 1.0, "r")], [("LB", 1.0, "r")]])
+    b = Group("b", ["b0", "b1"], [[("LB", 1.0, "s")], [("LC", 1.0, "s")]])
+    offers = {"LA0": [Offer("S2", 1, 0.1, 10, 1)], "LB": [Offer("S0", 1, 0.1, 10, 1), Offer("S1", 1, 0.1, 10, 1)],
+              "LC": [Offer("S1", 1, 0.1, 10, 1), Offer("S0", 5, 0.1, 3, 1)]}  # LC at S0: the break exceeds its stock
+    p = Problem({"a": a, "b": b}, [], offers, {"S0": 3.0, "S1": 5.0, "S2": 20.0}, 1.0)
+    floors = prune.fee_floors(p)
+    # a0 needs S2 and, for b, S0 or S1: 20 + 3; a1 with b0 at S0: 3.
+    assert floors["a"].tolist() == [23.0, 3.0]
+    # b0: S0 serves it and a1; b1 needs S1 (LC has no usable offer at S0): 5.
+    assert floors["b"].tolist() == [3.0, 5.0]
+    # The fallback: the largest, over the option's lines, of the line's cheapest
+    # seller fee, and at least the least such figure of every other group.
+    one = prune._fee_floors_one_seller(p)
+    assert one["a"].tolist() == [20.0, 3.0] and one["b"].tolist() == [3.0, 5.0]
 
 
 @settings(**SETTINGS)
