@@ -20,7 +20,10 @@ the whole problem:
   own lines at their cheapest, the cheapest compatible children and parent,
   the cheapest option of every other group; couplings ignored) plus the
   order fees (:func:`fee_floors`: the cheapest set of suppliers that can
-  sell its lines and some option of every other group). ``milp.solve`` solves the
+  sell its lines and some option of every other group); on the options
+  below a threshold, the tighter :func:`supplier_set_bounds` (the least
+  over supplier sets of the set's fees plus the parts bought from it alone)
+  drops more. ``milp.solve`` solves the
   problem restricted to the options below a threshold and widens the
   threshold until the optimum found lies below it by more than the largest
   tie-break term: then no left-out option can be part of an optimal design.
@@ -40,6 +43,8 @@ from partpick.optimize.milp import Coupling, Group, Problem
 BLOCK_PAIRS = 4_000_000
 #: Most suppliers whose every subset :func:`fee_floors` enumerates (2**n sets).
 FEE_SUBSETS_MAX_SUPPLIERS = 12
+#: Cells (options and compat pairs x supplier sets) of one block of :func:`supplier_set_bounds`.
+SET_BLOCK_CELLS = 8_000_000
 #: Largest table (distinct coupling rows of one group x options of the other) :func:`coupled_pairs` builds.
 MAX_PAIR_CELLS = 50_000_000
 
@@ -185,22 +190,29 @@ def compat_pairs(grp: Group) -> tuple[np.ndarray, np.ndarray]:
     return parents, np.repeat(np.arange(len(grp)), lengths)
 
 
-def _min_over_children(problem: Problem, child: str, value: np.ndarray) -> np.ndarray:
+def _segment_min(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """``out[i]`` = the least ``values[j]`` (a row when 2-D) over ``index[j] == i``; inf where none."""
+    out = np.full((n,) + values.shape[1:], np.inf)
+    if len(index):
+        order = np.argsort(index, kind="stable")
+        idx = index[order]
+        starts = np.flatnonzero(np.r_[True, idx[1:] != idx[:-1]])
+        out[idx[starts]] = np.minimum.reduceat(values[order], starts, axis=0)
+    return out
+
+
+def _min_over_children(problem: Problem, child: str, value: np.ndarray, pairs=None) -> np.ndarray:
     """For each parent option, the least ``value`` among the child options that suit it (inf if none)."""
     grp = problem.groups[child]
-    parents, kids = compat_pairs(grp)
-    out = np.full(len(problem.groups[grp.parent]), np.inf)
-    np.minimum.at(out, parents, value[kids])
-    return out
+    parents, kids = pairs or compat_pairs(grp)
+    return _segment_min(parents, value[kids], len(problem.groups[grp.parent]))
 
 
-def _min_over_parents(problem: Problem, child: str, value: np.ndarray) -> np.ndarray:
+def _min_over_parents(problem: Problem, child: str, value: np.ndarray, pairs=None) -> np.ndarray:
     """For each child option, the least ``value`` among the parent options it suits (inf if none)."""
     grp = problem.groups[child]
-    parents, kids = compat_pairs(grp)
-    out = np.full(len(grp), np.inf)
-    np.minimum.at(out, kids, value[parents])
-    return out
+    parents, kids = pairs or compat_pairs(grp)
+    return _segment_min(kids, value[parents], len(grp))
 
 
 def lower_bounds(problem: Problem) -> dict[str, np.ndarray]:
@@ -215,27 +227,32 @@ def lower_bounds(problem: Problem) -> dict[str, np.ndarray]:
     ``inf`` marks options that cannot be part of any design (no compatible
     child in some child group, or a line that cannot be bought).
     """
-    own = option_costs(problem)
+    return _tree_bounds(problem, option_costs(problem))
+
+
+def _tree_bounds(problem: Problem, own: dict[str, np.ndarray], pairs: dict | None = None) -> dict[str, np.ndarray]:
+    """:func:`lower_bounds` from given own costs: one per option, or a row per option (one column per scenario)."""
+    pairs = pairs if pairs is not None else {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
     kids = _children(problem)
     full: dict[str, np.ndarray] = {}
     share: dict[str, np.ndarray] = {}  # child group -> its contribution to each parent option
     for g in sorted(problem.groups, key=lambda name: -_depth(problem, name)):
         total = own[g].copy()
         for h in kids[g]:
-            share[h] = _min_over_children(problem, h, full[h])
+            share[h] = _min_over_children(problem, h, full[h], pairs[h])
             total = total + share[h]
         full[g] = total
     roots = [g for g, grp in problem.groups.items() if grp.parent is None]
-    best = {r: float(full[r].min()) if len(full[r]) else math.inf for r in roots}
+    best = {r: full[r].min(axis=0) if len(full[r]) else np.full(full[r].shape[1:], np.inf) for r in roots}
     out = {}
     for g, grp in problem.groups.items():
         root = _root(problem, g)
-        others = sum(v for r, v in best.items() if r != root)
+        others = sum((v for r, v in best.items() if r != root), np.zeros(full[g].shape[1:]))
         bound = full[g] + others
         if grp.parent is not None and grp.parent == root:
             with np.errstate(invalid="ignore"):
                 rest = np.where(np.isfinite(full[root]), full[root] - share[g], np.inf)
-            bound = bound + _min_over_parents(problem, g, rest)
+            bound = bound + _min_over_parents(problem, g, rest, pairs[g])
         out[g] = bound
     return out
 
@@ -319,6 +336,92 @@ def _fee_floors_one_seller(problem: Problem) -> dict[str, np.ndarray]:
            for g, grp in problem.groups.items()}
     least = {g: float(v.min()) if len(v) else math.inf for g, v in own.items()}
     return {g: np.maximum(v, max((least[h] for h in own if h != g), default=0.0)) for g, v in own.items()}
+
+
+def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
+    """For each option, the least over supplier sets Y of Y's fees plus the parts bound buying from Y alone.
+
+    A design buys from some set Y and pays its fees; its parts cost at least
+    :func:`lower_bounds` computed with the offers of Y alone. So the least,
+    over every Y, of the two bounds every design holding the option. Tighter
+    than :func:`design_bounds`, which takes the two minima apart, and dearer
+    to compute: every set is enumerated (None above
+    :data:`FEE_SUBSETS_MAX_SUPPLIERS` suppliers), in blocks of sets so that
+    memory stays bounded.
+
+    Each line need q is priced for a set Y from per-supplier figures f_s: the
+    exact cheapest purchase c_s(q) from supplier s alone when none of its
+    breaks has less stock than q, else q times its lowest unit price; for a
+    line several groups share, its units times s's lowest unit price (as in
+    :func:`option_costs`). The least f_s over the suppliers of Y bounds any
+    purchase from Y: a supplier that covers a units of the need pays at
+    least (a / q) f_s (with no stock limit below q, any break it buys at could
+    also sell q at the same unit price, so c_s(q) <= (q / a) c_s(a)), and the
+    shares a add up to at least q.
+    """
+    suppliers = sorted(problem.fees)
+    n = len(suppliers)
+    if n > FEE_SUBSETS_MAX_SUPPLIERS:
+        return None
+    users = _line_users(problem)
+    keys: dict[tuple, int] = {}
+    figures: list[np.ndarray] = []  # per key: the cost with each supplier alone
+    rows: dict[str, tuple[list[int], list[int]]] = {}
+    for g, grp in problem.groups.items():
+        opt, key_of = [], []
+        for o, usage in enumerate(grp.usage):
+            need: dict[str, float] = {}
+            for line, per_board, _role in usage:
+                need[line] = need.get(line, 0.0) + _units(problem, per_board)
+            for line, units in need.items():
+                key = (line, math.ceil(units)) if len(users[line]) == 1 else (line, units, "shared")
+                if key not in keys:
+                    keys[key] = len(figures)
+                    figures.append(_by_supplier(problem.line_offers.get(line, []), suppliers, key))
+                opt.append(o)
+                key_of.append(keys[key])
+        rows[g] = (opt, key_of)
+    n_sets = 1 << n
+    fee = np.zeros(n_sets)
+    for i, sup in enumerate(suppliers):
+        fee[(np.arange(n_sets) >> i) & 1 == 1] += float(problem.fees[sup])
+    per = np.array(figures).reshape(len(figures), n)
+    # cost[key, Y] = least figure over the suppliers of Y: the sets with highest bit i
+    # are the sets below 2**i plus supplier i.
+    cost = np.full((len(figures), n_sets), np.inf)
+    for i in range(n):
+        cost[:, 1 << i: 2 << i] = np.minimum(cost[:, : 1 << i], per[:, i: i + 1])
+    from scipy.sparse import csr_matrix
+
+    pick = {g: csr_matrix((np.ones(len(o)), (o, k)), shape=(len(problem.groups[g]), len(figures))) for g, (o, k) in rows.items()}
+    extra = {g: (problem.change_weight * np.asarray(problem.change_cost[g], float) if problem.change_weight is not None
+                 and g in problem.change_cost else np.zeros(len(grp))) for g, grp in problem.groups.items()}
+    pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
+    width = max(1, SET_BLOCK_CELLS // max(1, sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())))
+    out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
+    for lo in range(0, n_sets, width):
+        block = slice(lo, min(n_sets, lo + width))
+        own = {g: np.asarray(pick[g] @ cost[:, block]) + extra[g][:, None] for g in problem.groups}
+        for g, bound in _tree_bounds(problem, own, pairs).items():
+            if len(bound):
+                out[g] = np.minimum(out[g], (bound + fee[block]).min(axis=1))
+    return out
+
+
+def _by_supplier(offers, suppliers: list[str], key: tuple) -> np.ndarray:
+    """The figure of one need at each supplier (see :func:`supplier_set_bounds`); inf where it sells none."""
+    line, units = key[0], key[1]
+    rows = usable(offers)
+    out = []
+    for s in suppliers:
+        mine = [(low, p, st) for sup, low, p, st in rows if sup == s]
+        if not mine:
+            out.append(math.inf)
+        elif len(key) == 3 or any(st < max(units, low) for low, _p, st in mine):
+            out.append(units * min(p for _low, p, _st in mine))
+        else:
+            out.append(cheapest_purchase([o for o in offers if o.supplier == s], units))
+    return np.array(out)
 
 
 def design_bounds(problem: Problem) -> dict[str, np.ndarray]:

@@ -868,12 +868,14 @@ def _two_solve_problem(monkeypatch) -> Problem:
     """The hand-worked problem above: its threshold loop solves twice, optimum (a1, b0) at 10.00.
 
     The loop runs on the parts-only bounds (``prune.lower_bounds``, valid but
-    weaker than ``design_bounds``, whose fee floors would prove (a1, b0) in
-    one solve): these tests are about the loop, and need its second solve.
+    weaker than ``design_bounds`` and ``supplier_set_bounds``, whose fees
+    would prove (a1, b0) in one solve): these tests are about the loop, and
+    need its second solve.
     """
     from partpick.optimize import prune
 
     monkeypatch.setattr(prune, "design_bounds", prune.lower_bounds)
+    monkeypatch.setattr(prune, "supplier_set_bounds", lambda problem: None)
     a = Group("a", ["a0", "a1", "a2"], [[("LA", 1.0, "r")], [("LA1", 1.0, "r")], [("LA2", 1.0, "r")]])
     b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
     offers = {"LA": [Offer("S1", 1, 1.0, 10, 1)], "LA1": [Offer("S2", 1, 4.0, 10, 1)],

@@ -69,8 +69,8 @@ def test_pruning_with_weighted_changes_keeps_the_optimum(problem: Problem, weigh
 @settings(**SETTINGS)
 @given(problems())
 def test_cost_bounds_never_exceed_a_design_holding_the_option(problem: Problem) -> None:
-    """The parts-only bounds and the bounds with fee floors, against brute force."""
-    parts, whole = prune.lower_bounds(problem), prune.design_bounds(problem)
+    """The parts-only bounds, the bounds with fee floors and the supplier-set bounds, against brute force."""
+    parts, whole, by_set = prune.lower_bounds(problem), prune.design_bounds(problem), prune.supplier_set_bounds(problem)
     for g, grp in problem.groups.items():
         for o in range(len(grp)):
             if g in problem.forced and problem.forced[g] != o:
@@ -78,6 +78,7 @@ def test_cost_bounds_never_exceed_a_design_holding_the_option(problem: Problem) 
             best = brute_force(replace(problem, forced={**problem.forced, g: o}), "cost")
             if best is not None:
                 assert parts[g][o] <= whole[g][o] <= best.cost + 1e-9, (g, o)
+                assert by_set[g][o] <= best.cost + 1e-9, (g, o)
 
 
 def _least_fees_holding(problem: Problem, g: str, o: int) -> float:
@@ -130,6 +131,23 @@ def test_fee_floors_by_hand() -> None:
     # seller fee, and at least the least such figure of every other group.
     one = prune._fee_floors_one_seller(p)
     assert one["a"].tolist() == [20.0, 3.0] and one["b"].tolist() == [3.0, 5.0]
+
+
+def test_supplier_set_bounds_by_hand() -> None:
+    """a0's line costs 10.00 at S1 (fee 1) or 1.00 at S2 (fee 10); b0's line 1.00 at either.
+
+    Taken apart, the cheapest parts (1 + 1) and the cheapest fees (S1 alone, 1)
+    bound a design with a0 at 3.00 only; per supplier set: S1 alone 1 + 10 + 1,
+    S2 alone 10 + 1 + 1, both 11 + 1 + 1, so 12.00, the brute-force optimum.
+    """
+    a = Group("a", ["a0"], [[("LA", 1.0, "r")]])
+    b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
+    offers = {"LA": [Offer("S1", 1, 10.0, 10, 1), Offer("S2", 1, 1.0, 10, 1)],
+              "LB": [Offer("S1", 1, 1.0, 10, 1), Offer("S2", 1, 1.0, 10, 1)]}
+    p = Problem({"a": a, "b": b}, [], offers, {"S1": 1.0, "S2": 10.0}, 1.0)
+    assert prune.design_bounds(p)["a"].tolist() == [3.0]
+    assert prune.supplier_set_bounds(p)["a"].tolist() == [12.0]
+    assert brute_force(p).cost == pytest.approx(12.0)
 
 
 @settings(**SETTINGS)
