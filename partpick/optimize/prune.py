@@ -349,15 +349,12 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     :data:`FEE_SUBSETS_MAX_SUPPLIERS` suppliers), in blocks of sets so that
     memory stays bounded.
 
-    Each line need q is priced for a set Y from per-supplier figures f_s: the
-    exact cheapest purchase c_s(q) from supplier s alone when none of its
-    breaks has less stock than q, else q times its lowest unit price; for a
-    line several groups share, its units times s's lowest unit price (as in
-    :func:`option_costs`). The least f_s over the suppliers of Y bounds any
-    purchase from Y: a supplier that covers a units of the need pays at
-    least (a / q) f_s (with no stock limit below q, any break it buys at could
-    also sell q at the same unit price, so c_s(q) <= (q / a) c_s(a)), and the
-    shares a add up to at least q.
+    A line's need is priced for a set Y as in :func:`option_costs`, with the
+    offers of Y alone: a line of one group at the cheapest purchase of its
+    units from the sellers in Y (:func:`cheapest_purchase`, splits and stock
+    included), a line several groups share at its units times the lowest
+    unit price in Y. The price depends only on which of the line's sellers
+    Y holds, so it is computed once per subset of its sellers.
     """
     suppliers = sorted(problem.fees)
     n = len(suppliers)
@@ -377,7 +374,7 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
                 key = (line, math.ceil(units)) if len(users[line]) == 1 else (line, units, "shared")
                 if key not in keys:
                     keys[key] = len(figures)
-                    figures.append(_by_supplier(problem.line_offers.get(line, []), suppliers, key))
+                    figures.append(_over_sets(problem.line_offers.get(line, []), suppliers, key))
                 opt.append(o)
                 key_of.append(keys[key])
         rows[g] = (opt, key_of)
@@ -385,12 +382,7 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     fee = np.zeros(n_sets)
     for i, sup in enumerate(suppliers):
         fee[(np.arange(n_sets) >> i) & 1 == 1] += float(problem.fees[sup])
-    per = np.array(figures).reshape(len(figures), n)
-    # cost[key, Y] = least figure over the suppliers of Y: the sets with highest bit i
-    # are the sets below 2**i plus supplier i.
-    cost = np.full((len(figures), n_sets), np.inf)
-    for i in range(n):
-        cost[:, 1 << i: 2 << i] = np.minimum(cost[:, : 1 << i], per[:, i: i + 1])
+    cost = np.array(figures).reshape(len(figures), n_sets)  # [key, Y]
     from scipy.sparse import csr_matrix
 
     pick = {g: csr_matrix((np.ones(len(o)), (o, k)), shape=(len(problem.groups[g]), len(figures))) for g, (o, k) in rows.items()}
@@ -408,20 +400,23 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     return out
 
 
-def _by_supplier(offers, suppliers: list[str], key: tuple) -> np.ndarray:
-    """The figure of one need at each supplier (see :func:`supplier_set_bounds`); inf where it sells none."""
-    line, units = key[0], key[1]
+def _over_sets(offers, suppliers: list[str], key: tuple) -> np.ndarray:
+    """The price of one need for every supplier set (bit i: ``suppliers[i]``); see :func:`supplier_set_bounds`."""
+    units = key[1]
     rows = usable(offers)
-    out = []
-    for s in suppliers:
-        mine = [(low, p, st) for sup, low, p, st in rows if sup == s]
-        if not mine:
-            out.append(math.inf)
-        elif len(key) == 3 or any(st < max(units, low) for low, _p, st in mine):
-            out.append(units * min(p for _low, p, _st in mine))
+    sellers = sorted({s for s, *_rest in rows if s in suppliers})
+    table = np.full(1 << len(sellers), np.inf)
+    for sub in range(1, len(table)):
+        held = {s for j, s in enumerate(sellers) if (sub >> j) & 1}
+        if len(key) == 3:
+            table[sub] = units * min(p for s, _low, p, _st in rows if s in held)
         else:
-            out.append(cheapest_purchase([o for o in offers if o.supplier == s], units))
-    return np.array(out)
+            table[sub] = cheapest_purchase([o for o in offers if o.supplier in held], units)
+    sets = np.arange(1 << len(suppliers))
+    index = np.zeros(len(sets), dtype=np.int64)
+    for j, s in enumerate(sellers):
+        index |= ((sets >> suppliers.index(s)) & 1) << j
+    return table[index]
 
 
 def design_bounds(problem: Problem) -> dict[str, np.ndarray]:
