@@ -45,6 +45,10 @@ BLOCK_PAIRS = 4_000_000
 FEE_SUBSETS_MAX_SUPPLIERS = 12
 #: Cells (options and compat pairs x supplier sets) of one block of :func:`supplier_set_bounds`.
 SET_BLOCK_CELLS = 8_000_000
+#: Most cells in all of :func:`supplier_set_bounds`; above it, it returns None. The work
+#: grows with the cells (about 1.2 s per 10**8 on the 2-core development machine), so
+#: this caps it near 12 s.
+SET_BOUNDS_MAX_CELLS = 1_000_000_000
 #: Largest table (distinct coupling rows of one group x options of the other) :func:`coupled_pairs` builds.
 MAX_PAIR_CELLS = 50_000_000
 
@@ -345,9 +349,9 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     :func:`lower_bounds` computed with the offers of Y alone. So the least,
     over every Y, of the two bounds every design holding the option. Tighter
     than :func:`design_bounds`, which takes the two minima apart, and dearer
-    to compute: every set is enumerated (None above
-    :data:`FEE_SUBSETS_MAX_SUPPLIERS` suppliers), in blocks of sets so that
-    memory stays bounded.
+    to compute: every set is enumerated, in blocks of sets so that memory
+    stays bounded (None above :data:`FEE_SUBSETS_MAX_SUPPLIERS` suppliers or
+    :data:`SET_BOUNDS_MAX_CELLS` cells).
 
     A line's need is priced for a set Y as in :func:`option_costs`, with the
     offers of Y alone: a line of one group at the cheapest purchase of its
@@ -389,7 +393,10 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     extra = {g: (problem.change_weight * np.asarray(problem.change_cost[g], float) if problem.change_weight is not None
                  and g in problem.change_cost else np.zeros(len(grp))) for g, grp in problem.groups.items()}
     pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
-    width = max(1, SET_BLOCK_CELLS // max(1, sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())))
+    cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())
+    if cells * n_sets > SET_BOUNDS_MAX_CELLS:
+        return None
+    width = max(1, SET_BLOCK_CELLS // max(1, cells))
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
     for lo in range(0, n_sets, width):
         block = slice(lo, min(n_sets, lo + width))

@@ -133,7 +133,7 @@ def test_fee_floors_by_hand() -> None:
     assert one["a"].tolist() == [20.0, 3.0] and one["b"].tolist() == [3.0, 5.0]
 
 
-def test_supplier_set_bounds_by_hand() -> None:
+def test_supplier_set_bounds_by_hand(monkeypatch) -> None:
     """a0's line costs 10.00 at S1 (fee 1) or 1.00 at S2 (fee 10); b0's line 1.00 at either.
 
     Taken apart, the cheapest parts (1 + 1) and the cheapest fees (S1 alone, 1)
@@ -148,6 +148,14 @@ def test_supplier_set_bounds_by_hand() -> None:
     assert prune.design_bounds(p)["a"].tolist() == [3.0]
     assert prune.supplier_set_bounds(p)["a"].tolist() == [12.0]
     assert brute_force(p).cost == pytest.approx(12.0)
+    # 2 options x 4 sets = 8 cells: within a cap of 8, none above a cap of 7 or one supplier.
+    monkeypatch.setattr(prune, "SET_BOUNDS_MAX_CELLS", 8)
+    assert prune.supplier_set_bounds(p) is not None
+    monkeypatch.setattr(prune, "SET_BOUNDS_MAX_CELLS", 7)
+    assert prune.supplier_set_bounds(p) is None
+    monkeypatch.setattr(prune, "SET_BOUNDS_MAX_CELLS", 8)
+    monkeypatch.setattr(prune, "FEE_SUBSETS_MAX_SUPPLIERS", 1)
+    assert prune.supplier_set_bounds(p) is None
 
 
 @settings(**SETTINGS)
