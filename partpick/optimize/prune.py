@@ -387,9 +387,7 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     for i, sup in enumerate(suppliers):
         fee[(np.arange(n_sets) >> i) & 1 == 1] += float(problem.fees[sup])
     cost = np.array(figures).reshape(len(figures), n_sets)  # [key, Y]
-    from scipy.sparse import csr_matrix
-
-    pick = {g: csr_matrix((np.ones(len(o)), (o, k)), shape=(len(problem.groups[g]), len(figures))) for g, (o, k) in rows.items()}
+    pick = {g: (np.asarray(o, dtype=np.int64), np.asarray(k, dtype=np.int64)) for g, (o, k) in rows.items()}
     extra = {g: (problem.change_weight * np.asarray(problem.change_cost[g], float) if problem.change_weight is not None
                  and g in problem.change_cost else np.zeros(len(grp))) for g, grp in problem.groups.items()}
     pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
@@ -400,10 +398,19 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
     for lo in range(0, n_sets, width):
         block = slice(lo, min(n_sets, lo + width))
-        own = {g: np.asarray(pick[g] @ cost[:, block]) + extra[g][:, None] for g in problem.groups}
+        own = {g: _sum_rows(*pick[g], cost[:, block], len(grp)) + extra[g][:, None] for g, grp in problem.groups.items()}
         for g, bound in _tree_bounds(problem, own, pairs).items():
             if len(bound):
                 out[g] = np.minimum(out[g], (bound + fee[block]).min(axis=1))
+    return out
+
+
+def _sum_rows(opt: np.ndarray, key: np.ndarray, cost: np.ndarray, n: int) -> np.ndarray:
+    """Row o = the sum of ``cost[key[j]]`` over ``opt[j] == o`` (``opt`` ascending); zero for options with no line."""
+    out = np.zeros((n, cost.shape[1]))
+    if len(opt):
+        starts = np.flatnonzero(np.r_[True, opt[1:] != opt[:-1]])
+        out[opt[starts]] = np.add.reduceat(cost[key], starts, axis=0)
     return out
 
 
