@@ -48,6 +48,7 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
 
         previous = load_previous(args.previous)
     _refuse_outputs(args, catalog)
+    limit = getattr(args, "time_limit", None)  # one budget per design search
     revision = None
     if previous is not None:
         from partpick.optimize.revise import redesign
@@ -56,11 +57,11 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
             spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": args.objective})})
         revision = redesign(spec, catalog, previous, exclude=tuple(args.exclude), keep_footprints=args.keep_footprints,
                             change_weight=getattr(args, "change_weight", None), solver=args.solver,
-                            time_limit=getattr(args, "time_limit", None))
+                            time_limit=limit)
         result = revision.result
     else:
         result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver,
-                     spec_label=args.spec, time_limit=getattr(args, "time_limit", None))
+                     spec_label=args.spec, time_limit=limit)
     if not result.feasible:
         from partpick.optimize.explain import suggestions
 
@@ -73,7 +74,6 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         return EXIT_INFEASIBLE
     from partpick.optimize.explain import compare_feeds
 
-    limit = getattr(args, "time_limit", None)
     rep = build_report(result, catalog.file_sha256, args.solver, compare_feeds(result, catalog, tuple(args.exclude), args.solver, limit))
     if revision is not None:
         rep["changes"] = [vars(c) for c in revision.changes]

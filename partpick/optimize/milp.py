@@ -266,8 +266,8 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
 
     ``time_limit`` bounds the whole loop, not each solve: every solve gets
     what is left of it, and when nothing is left the best design found so far
-    comes back as not proven optimal (none found: :class:`SolverError`, as
-    for a single solve).
+    comes back as not proven optimal (none found: :class:`SolverTimeout`,
+    as for a single solve).
     """
     from partpick.optimize import prune as reduce
 

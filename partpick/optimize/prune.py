@@ -127,6 +127,30 @@ def _units(problem: Problem, per_board: float) -> float:
     return round(per_board * problem.factor, 6)
 
 
+def _option_need(problem: Problem, usage) -> dict[str, float]:
+    """Units of each line one option needs (its uses of a line added up)."""
+    need: dict[str, float] = {}
+    for line, per_board, _role in usage:
+        need[line] = need.get(line, 0.0) + _units(problem, per_board)
+    return need
+
+
+def _weighted_changes(problem: Problem, g: str) -> np.ndarray:
+    """Each option's weighted changes against a previous design (zeros without ``change_weight``)."""
+    if problem.change_weight is not None and g in problem.change_cost:
+        return problem.change_weight * np.asarray(problem.change_cost[g], float)
+    return np.zeros(len(problem.groups[g]))
+
+
+def _set_fees(problem: Problem, suppliers: list[str]) -> np.ndarray:
+    """The order fees of every supplier set (bit i of the set's index: ``suppliers[i]``)."""
+    sets = np.arange(1 << len(suppliers), dtype=np.int64)
+    fee = np.zeros(len(sets))
+    for i, s in enumerate(suppliers):
+        fee[(sets >> i) & 1 == 1] += float(problem.fees[s])
+    return fee
+
+
 # --------------------------------------------------------------------------- cost bounds
 
 
@@ -146,11 +170,8 @@ def option_costs(problem: Problem) -> dict[str, np.ndarray]:
     for g, grp in problem.groups.items():
         cost = np.zeros(len(grp))
         for o, usage in enumerate(grp.usage):
-            need: dict[str, float] = {}
-            for line, per_board, _role in usage:
-                need[line] = need.get(line, 0.0) + _units(problem, per_board)
             total = 0.0
-            for line, units in need.items():
+            for line, units in _option_need(problem, usage).items():
                 if len(users[line]) == 1:
                     key = (line, math.ceil(units))
                     if key not in memo:
@@ -159,9 +180,7 @@ def option_costs(problem: Problem) -> dict[str, np.ndarray]:
                 else:
                     total += units * pmin.get(line, math.inf)
             cost[o] = total
-        if problem.change_weight is not None and g in problem.change_cost:
-            cost += problem.change_weight * np.asarray(problem.change_cost[g], float)
-        out[g] = cost
+        out[g] = cost + _weighted_changes(problem, g)
     return out
 
 
@@ -283,9 +302,7 @@ def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
         return _fee_floors_one_seller(problem)
     code = {s: i for i, s in enumerate(suppliers)}
     sets = np.arange(1 << len(suppliers), dtype=np.int64)
-    fee = np.zeros(len(sets))
-    for s, i in code.items():
-        fee[(sets >> i) & 1 == 1] += float(problem.fees[s])
+    fee = _set_fees(problem, suppliers)
     sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
     # Per group: the distinct seller-mask sets of its options, and each option's one.
     keys: dict[str, list[tuple[int, ...]]] = {}
@@ -315,10 +332,13 @@ def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
         for h, ok in some.items():
             if h != g:
                 others &= ok
-        per_key = np.array([float(fee[can_sell(k) & others].min()) if (can_sell(k) & others).any() else math.inf
-                            for k in keys[g]])
+        per_key = np.array([_least(fee[can_sell(k) & others]) for k in keys[g]])
         out[g] = per_key[key_of[g]] if len(per_key) else np.zeros(0)
     return out
+
+
+def _least(values: np.ndarray) -> float:
+    return float(values.min()) if len(values) else math.inf
 
 
 def _mask(offers, code: dict[str, int]) -> int:
@@ -364,17 +384,19 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     n = len(suppliers)
     if n > FEE_SUBSETS_MAX_SUPPLIERS:
         return None
+    n_sets = 1 << n
+    pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
+    cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())
+    if cells * n_sets > SET_BOUNDS_MAX_CELLS:
+        return None
     users = _line_users(problem)
     keys: dict[tuple, int] = {}
-    figures: list[np.ndarray] = []  # per key: the cost with each supplier alone
+    figures: list[np.ndarray] = []  # per key: its price for every supplier set
     rows: dict[str, tuple[list[int], list[int]]] = {}
     for g, grp in problem.groups.items():
         opt, key_of = [], []
         for o, usage in enumerate(grp.usage):
-            need: dict[str, float] = {}
-            for line, per_board, _role in usage:
-                need[line] = need.get(line, 0.0) + _units(problem, per_board)
-            for line, units in need.items():
+            for line, units in _option_need(problem, usage).items():
                 key = (line, math.ceil(units)) if len(users[line]) == 1 else (line, units, "shared")
                 if key not in keys:
                     keys[key] = len(figures)
@@ -382,18 +404,10 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
                 opt.append(o)
                 key_of.append(keys[key])
         rows[g] = (opt, key_of)
-    n_sets = 1 << n
-    fee = np.zeros(n_sets)
-    for i, sup in enumerate(suppliers):
-        fee[(np.arange(n_sets) >> i) & 1 == 1] += float(problem.fees[sup])
+    fee = _set_fees(problem, suppliers)
     cost = np.array(figures).reshape(len(figures), n_sets)  # [key, Y]
     pick = {g: (np.asarray(o, dtype=np.int64), np.asarray(k, dtype=np.int64)) for g, (o, k) in rows.items()}
-    extra = {g: (problem.change_weight * np.asarray(problem.change_cost[g], float) if problem.change_weight is not None
-                 and g in problem.change_cost else np.zeros(len(grp))) for g, grp in problem.groups.items()}
-    pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
-    cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())
-    if cells * n_sets > SET_BOUNDS_MAX_CELLS:
-        return None
+    extra = {g: _weighted_changes(problem, g) for g in problem.groups}
     width = max(1, SET_BLOCK_CELLS // max(1, cells))
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
     for lo in range(0, n_sets, width):

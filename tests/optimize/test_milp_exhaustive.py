@@ -162,11 +162,7 @@ def brute_force(problem: Problem, objective: str | None = None) -> Optimum | Non
     best_choice: dict[str, int] = {}
     for combo in itertools.product(*(range(len(problem.groups[g])) for g in names)):
         choice = dict(zip(names, combo))
-        if any(choice[g] != o for g, o in problem.forced.items()):
-            continue
-        if any(all(choice[g] in opts for g, opts in cut.items()) for cut in problem.forbidden):
-            continue
-        if check_choice(problem, choice):
+        if not rules_ok(problem, choice) or check_choice(problem, choice):
             continue
         need = {line: ceil_units(q) for line, q in line_need(problem, choice).items()}
         cost = order_cost(problem, need, pricer)
@@ -805,7 +801,7 @@ def brute_force_worst(problem: Problem) -> dict[str, int] | None:
     worst, worst_cost = None, -math.inf
     for combo in itertools.product(*[range(len(problem.groups[g])) for g in names]):
         choice = dict(zip(names, combo))
-        if check_choice(problem, choice) or not _rules_ok(problem, choice):
+        if check_choice(problem, choice) or not rules_ok(problem, choice):
             continue
         need = {l: ceil_units(q) for l, q in line_need(problem, choice).items()}
         cost = order_cost(problem, need)
@@ -814,7 +810,7 @@ def brute_force_worst(problem: Problem) -> dict[str, int] | None:
     return worst
 
 
-def _rules_ok(problem: Problem, choice: dict[str, int]) -> bool:
+def rules_ok(problem: Problem, choice: dict[str, int]) -> bool:
     if any(choice[g] != o for g, o in problem.forced.items()):
         return False
     return not any(all(choice[g] in opts for g, opts in cut.items()) for cut in problem.forbidden)

@@ -27,6 +27,7 @@ from optimize.test_milp_exhaustive import (
     cheapest_line_cost,
     distinct_lines,
     problems,
+    rules_ok,
     supplier_subsets,
 )
 
@@ -93,9 +94,7 @@ def _least_fees_holding(problem: Problem, g: str, o: int) -> float:
     least = math.inf
     for combo in itertools.product(*(range(len(problem.groups[h])) for h in names)):
         choice = dict(zip(names, combo))
-        if choice[g] != o or any(choice[h] != f for h, f in problem.forced.items()):
-            continue
-        if any(all(choice[h] in opts for h, opts in cut.items()) for cut in problem.forbidden) or check_choice(problem, choice):
+        if choice[g] != o or not rules_ok(problem, choice) or check_choice(problem, choice):
             continue
         need = {line: ceil_units(q) for line, q in line_need(problem, choice).items() if ceil_units(q) > 0}
         for y in sets:
