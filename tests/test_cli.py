@@ -225,6 +225,30 @@ def test_design_spec_typo_exits_3_with_the_line(capsys, tmp_path):
     assert f"{spec}:3: [output] powr_w: unknown key (check the spelling against the documented keys)" in err.splitlines()
 
 
+def test_design_beyond_the_stage_size_cap_exits_2_with_what_to_change(capsys, tmp_path, monkeypatch):
+    """A catalogue whose current sources give too many stage configurations: exit 2, the reason, no report."""
+    from partpick.evaluate import stage
+
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 10)
+    report = tmp_path / "report.json"
+    bench = ROOT / "examples" / "bench_2x25w_split.toml"
+    code, out, err = run_cli(capsys, "design", str(bench), "--catalog", str(DEMO_CATALOG), "--json", str(report))
+    assert code == 2
+    assert "more than 10 stage configurations" in err
+    assert 'set bias_feed = "resistor" under [stage] in the spec' in err
+    assert "Traceback" not in err + out
+    assert not report.exists()
+    # The change the message names builds no current sources, so the cap is not
+    # reached; on the demo catalogue the tight bench rails then leave no
+    # resistor feed either (the example's own comment), which is exit 4.
+    spec = tmp_path / "resistor.toml"
+    spec.write_text(bench.read_text(encoding="utf-8").replace('bias_feed = "auto"', 'bias_feed = "resistor"'), encoding="utf-8")
+    code, out, err = run_cli(capsys, "design", str(spec), "--catalog", str(DEMO_CATALOG), "--quiet")
+    assert "stage configurations" not in err
+    assert code == 4
+    assert "bias feed (s.3) removed" in out + err
+
+
 def test_design_on_a_broken_catalogue_exits_3_and_writes_no_report(capsys, catalog_copy, tmp_path):
     break_catalogue(catalog_copy)
     report = tmp_path / "report.json"

@@ -29,6 +29,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import pandas as pd
 
+from partpick.errors import UsageError
 from partpick.evaluate.context import Pool, Targets, quiescent_a
 from partpick.model import bias, dissipation, eseries, regulator, soa, swing, thermal
 from partpick.model.defaults import (
@@ -53,6 +54,15 @@ CCS_MIN_RE_DROP_V = 0.3
 #: Largest Ic rating of a pair considered for the current sources [A]: small-signal
 #: and driver transistors, not output devices (common practice).
 CCS_MAX_IC_A = 2.0
+#: Most stage configurations (core configuration x bias feed) and bias-feed
+#: resistor options one run builds. The medium benchmark has 123,392 and
+#: 1,192,991 of them and peaks at 621 MiB through evaluation, assembly and the
+#: optimiser's bounds, so these keep a run near 2 GiB; past either the run
+#: stops with a :class:`UsageError` saying what to change, instead of
+#: exhausting the machine's memory (current sources multiply the core
+#: configurations by every small pair and reference the catalogue holds).
+STAGE_ROWS_MAX = 400_000
+FEED_OPTIONS_MAX = 4_000_000
 
 
 @dataclass
@@ -506,7 +516,12 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
         res_ok = np.zeros(n, dtype=bool)
     ccs_ok = np.zeros(n, dtype=bool)
     if mode in ("current_source", "auto"):
-        for idx, frame, opts, limits in _ccs_variants(spec, pool, targets, core, fams, sink):
+        n_opts = sum(len(o) for o in options)
+        for idx, frame, n_new, make_options, limits in _ccs_variants(spec, pool, targets, core, fams, sink):
+            n_opts += n_new
+            if offset + len(idx) > STAGE_ROWS_MAX or n_opts > FEED_OPTIONS_MAX:
+                raise UsageError(_too_many_feeds(mode, n, pool))
+            opts = make_options()
             frame["core_i"] = idx
             pos = offset + np.arange(len(idx))
             opts["k"] = pos[opts["row"].to_numpy()]
@@ -547,13 +562,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     current): the base drive is checked at the lower bound, heat, reference
     loading and the bias-diode rating at the upper one.
     """
-    small = pair_options(pool, "complement")
-    # Small-signal and driver pairs serve as current sources; power pairs do not.
-    small = small[np.maximum(small["ic_max_a_n"], small["ic_max_a_p"]) <= CCS_MAX_IC_A].reset_index(drop=True)
-    refs = []
-    for d in pool.diodes.itertuples(index=True):
-        per = 1 if d.kind == "led" else 2
-        refs.append((d.Index, per, per * d.vf_v, d.if_max_a))
+    small, refs = _ccs_candidates(pool)
     rail_min = core["rail_min_v"].to_numpy(float)
     rail_max = core["rail_max_v"].to_numpy(float)
     base_pk = core["base_peak_v"].to_numpy(float)
@@ -607,11 +616,38 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                     standing_a=best[idx], ccs_mount=mount, ccs_package=s.package if mount == "heatsink" else "",
                     sink_devices=sink.n_dev + (2 * sink.channels if mount == "heatsink" else 0),
                 ))
-                opt_frames = []
-                for (fam, r_e, r_ref, p_e, p_ref, _i), ok in zip(per_fam, fam_fits):
-                    ks = np.flatnonzero(ok & (best > 0))
-                    opt_frames.append(pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks])))
-                yield idx, frame, pd.concat(opt_frames, ignore_index=True), (None if limits is None else limits[idx])
+                chosen = [(f, np.flatnonzero(ok & (best > 0))) for f, ok in zip(per_fam, fam_fits)]
+
+                def options(chosen=chosen, pos=pos) -> pd.DataFrame:
+                    return pd.concat([pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks]))
+                                      for (fam, r_e, r_ref, p_e, p_ref, _i), ks in chosen], ignore_index=True)
+
+                yield idx, frame, sum(len(ks) for _f, ks in chosen), options, (None if limits is None else limits[idx])
+
+
+def _ccs_candidates(pool: Pool) -> tuple[pd.DataFrame, list[tuple[int, int, float, float]]]:
+    """Current-source pairs (small complementary pairs) and references (diode row, per source, Vref, If max)."""
+    small = pair_options(pool, "complement")
+    # Small-signal and driver pairs serve as current sources; power pairs do not.
+    small = small[np.maximum(small["ic_max_a_n"], small["ic_max_a_p"]) <= CCS_MAX_IC_A].reset_index(drop=True)
+    refs = []
+    for d in pool.diodes.itertuples(index=True):
+        per = 1 if d.kind == "led" else 2
+        refs.append((d.Index, per, per * d.vf_v, d.if_max_a))
+    return small, refs
+
+
+def _too_many_feeds(mode: str, n_core: int, pool: Pool) -> str:
+    """Why a run stops at :data:`STAGE_ROWS_MAX`, with the numbers and what to change."""
+    small, refs = _ccs_candidates(pool)
+    fix = 'set bias_feed = "resistor" under [stage] in the spec, or ' if mode == "auto" else ""
+    return (
+        f"the current-source bias feed gives more than {STAGE_ROWS_MAX:,} stage configurations "
+        f"or {FEED_OPTIONS_MAX:,} feed-resistor options: "
+        f"{n_core:,} output-stage configurations, each fed by any of {len(small):,} small complementary pairs "
+        f"x {len(refs)} references x their mountings; partpick cannot optimise that many in one run. "
+        f"To go on, {fix}keep fewer small-signal complementary pairs (Ic max <= {CCS_MAX_IC_A:g} A) in the catalogue"
+    )
 
 
 def _ccs_device(s, spec: Spec) -> dict:

@@ -201,3 +201,32 @@ def test_spec_source_current_below_the_base_drive_is_named(catalog):
     rej = st.rejected[(st.rejected["pair_i"] == pi) & (st.rejected["rejected_by"] == "bias feed (s.3)")]
     assert len(rej) > 0
     assert "the spec fixes it at 50 mA, below the 135 mA needed" in st.reason(rej.iloc[0])
+
+
+def test_a_stage_too_large_to_optimise_stops_with_what_to_change(catalog, bench, monkeypatch):
+    """At the size caps the evaluation stops with a UsageError naming its numbers; one row below, it does not.
+
+    The bench spec on the demo catalogue is the case: every one of its stage
+    configurations and feed options is counted against the caps, so a cap of
+    exactly that many passes and one less stops the run.
+    """
+    from partpick.errors import UsageError
+    from partpick.evaluate import stage as stage_module
+
+    spec, pool, targets, st = bench
+    rows, options = len(st.configs), len(st.feed_options)
+    assert (st.configs["feed"] == "current_source").sum() > 0
+    monkeypatch.setattr(stage_module, "STAGE_ROWS_MAX", rows)
+    monkeypatch.setattr(stage_module, "FEED_OPTIONS_MAX", options)
+    assert len(evaluate_stage(spec, pool, targets).configs) == rows
+    for name, cap in (("STAGE_ROWS_MAX", rows - 1), ("FEED_OPTIONS_MAX", options - 1)):
+        with monkeypatch.context() as m:
+            m.setattr(stage_module, name, cap)
+            with pytest.raises(UsageError) as err:
+                evaluate_stage(spec, pool, targets)
+        message = str(err.value)
+        small, refs = stage_module._ccs_candidates(pool)
+        assert f"each fed by any of {len(small):,} small complementary pairs x {len(refs)} references" in message
+        assert 'set bias_feed = "resistor" under [stage]' in message
+        cores = len(st.configs["core_i"].unique()) + len(st.rejected[st.rejected["rejected_by"] == "bias feed (s.3)"])
+        assert f"{cores:,} output-stage configurations" in message
