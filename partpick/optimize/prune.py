@@ -135,6 +135,30 @@ def _option_need(problem: Problem, usage) -> dict[str, float]:
     return need
 
 
+def _needs(problem: Problem, g: str) -> tuple[np.ndarray, np.ndarray, list[str], np.ndarray]:
+    """Every option's line needs of group ``g`` as arrays: (option, line id, line keys, units).
+
+    One row per option and line, ordered by option; ``line keys[line id]``
+    is the row's line. The same figures as :func:`_option_need` option by
+    option (each use rounded as there, the uses of one line added in their
+    order).
+    """
+    usage = problem.groups[g].usage
+    lengths = np.fromiter((len(u) for u in usage), dtype=np.int64, count=len(usage))
+    opt = np.repeat(np.arange(len(usage), dtype=np.int64), lengths)
+    code: dict[str, int] = {}
+    ids = np.fromiter((code.setdefault(line, len(code)) for u in usage for line, _q, _r in u), dtype=np.int64, count=len(opt))
+    per_board = np.fromiter((q for u in usage for _l, q, _r in u), dtype=float, count=len(opt))
+    values, back = np.unique(per_board, return_inverse=True)
+    units = np.array([_units(problem, float(v)) for v in values])[back] if len(values) else per_board
+    key = opt * max(len(code), 1) + ids
+    order = np.argsort(key, kind="stable")
+    key = key[order]
+    starts = np.flatnonzero(np.r_[True, key[1:] != key[:-1]]) if len(key) else np.zeros(0, np.int64)
+    summed = np.add.reduceat(units[order], starts) if len(starts) else units
+    return opt[order][starts], ids[order][starts], list(code), summed
+
+
 def _weighted_changes(problem: Problem, g: str) -> np.ndarray:
     """Each option's weighted changes against a previous design (zeros without ``change_weight``)."""
     if problem.change_weight is not None and g in problem.change_cost:
@@ -162,26 +186,38 @@ def option_costs(problem: Problem) -> dict[str, np.ndarray]:
     cheapest unit price (the need of a shared line is the sum of its users').
     With ``change_weight``, the weighted changes are added.
     """
-    users = _line_users(problem)
+    needs = {g: _needs(problem, g) for g in problem.groups}
+    users = _users_of(needs)
     memo: dict[tuple[str, int], float] = {}
     pmin = {line: min((p for _s, _low, p, _st in usable(offers)), default=math.inf)
             for line, offers in problem.line_offers.items()}
     out = {}
     for g, grp in problem.groups.items():
-        cost = np.zeros(len(grp))
-        for o, usage in enumerate(grp.usage):
-            total = 0.0
-            for line, units in _option_need(problem, usage).items():
-                if len(users[line]) == 1:
-                    key = (line, math.ceil(units))
-                    if key not in memo:
-                        memo[key] = cheapest_purchase(problem.line_offers.get(line, []), key[1])
-                    total += memo[key]
-                else:
-                    total += units * pmin.get(line, math.inf)
-            cost[o] = total
-        out[g] = cost + _weighted_changes(problem, g)
+        opt, ids, names, units = needs[g]
+        # Price each distinct (line, units) once.
+        amounts, amount_of = np.unique(units, return_inverse=True)
+        pairs, back = np.unique(ids * len(amounts) + amount_of.reshape(-1), return_inverse=True)
+        price = np.empty(len(pairs))
+        for j, pair in enumerate(pairs.tolist()):
+            line, q = names[pair // len(amounts)], float(amounts[pair % len(amounts)])
+            if users[line] == 1:
+                key = (line, math.ceil(q))
+                if key not in memo:
+                    memo[key] = cheapest_purchase(problem.line_offers.get(line, []), key[1])
+                price[j] = memo[key]
+            else:
+                price[j] = q * pmin.get(line, math.inf)
+        out[g] = _sum_rows(opt, back.reshape(-1).astype(np.int64), price[:, None], len(grp))[:, 0] + _weighted_changes(problem, g)
     return out
+
+
+def _users_of(needs: dict[str, tuple[np.ndarray, np.ndarray, list[str], np.ndarray]]) -> dict[str, int]:
+    """How many groups use each line, from :func:`_needs` of every group."""
+    count: dict[str, int] = {}
+    for _opt, ids, names, _units in needs.values():
+        for i in np.unique(ids).tolist():
+            count[names[i]] = count.get(names[i], 0) + 1
+    return count
 
 
 def _children(problem: Problem) -> dict[str, list[str]]:
