@@ -306,3 +306,37 @@ def test_coupled_pairs_by_hand() -> None:
     assert got[("a", "c")] == {(1, 0), (2, 0)}
     # b + c >= 5 - 3 = 2: b0 with c0 (1 + 2), b1 with c0 (2 + 2); c1 fits neither.
     assert got[("b", "c")] == {(0, 0), (1, 0)}
+
+
+@settings(**SETTINGS)
+@given(problems(), st.sampled_from([1.0, 1.04, 3.0]))
+def test_array_needs_are_each_options_line_needs(problem: Problem, factor: float) -> None:
+    """``_needs`` (arrays, used by the cost bounds) against the option-by-option dict of ``_option_need``."""
+    problem = replace(problem, factor=factor)
+    for g, grp in problem.groups.items():
+        opt, ids, names, units = prune._needs(problem, g)
+        assert np.all(np.diff(opt) >= 0)
+        got: dict[int, dict[str, float]] = {}
+        for o, i, q in zip(opt.tolist(), ids.tolist(), units.tolist()):
+            assert names[i] not in got.setdefault(o, {})  # one row per option and line
+            got[o][names[i]] = q
+        for o, usage in enumerate(grp.usage):
+            want = prune._option_need(problem, usage)
+            assert got.get(o, {}).keys() == want.keys()
+            for line, q in want.items():
+                assert got[o][line] == pytest.approx(q, rel=1e-12, abs=1e-12)
+
+
+def test_array_needs_add_two_uses_of_one_line_by_hand() -> None:
+    """An option using one line in two roles needs their sum; an option with no line has no row.
+
+    With 4 boards and 4 % spares (factor 4.16): line A at 1 + 0.5 per board is
+    4.16 + 2.08 = 6.24 units, B at 2 per board 8.32 units; the third option's
+    B at 1 per board 4.16 units.
+    """
+    usage = [[("A", 1.0, "r1"), ("B", 2.0, "r1"), ("A", 0.5, "r2")], [], [("B", 1.0, "r1")]]
+    problem = Problem(groups={"g": Group("g", ["a", "b", "c"], usage)}, couplings=[], line_offers={}, fees={}, factor=4.16)
+    opt, ids, names, units = prune._needs(problem, "g")
+    rows = sorted((o, names[i], q) for o, i, q in zip(opt.tolist(), ids.tolist(), units.tolist()))
+    assert [(o, line) for o, line, _q in rows] == [(0, "A"), (0, "B"), (2, "B")]
+    assert [q for *_k, q in rows] == pytest.approx([6.24, 8.32, 4.16], abs=1e-12)
