@@ -43,6 +43,18 @@ TIE_WEIGHT = 1e-4
 SOLVE_SHARE = 0.75
 DROP_MAX_S = 5.0
 
+#: The threshold loop's schedule (:func:`_solve_bounded`): the first threshold
+#: lies this share of the bound floor above it (at least one currency unit),
+#: and a threshold that holds no design moves ``GROWTH`` times as far from the
+#: floor. Small steps pay: a threshold problem without a design is proven so
+#: in well under a second, while the options under a threshold, and the time
+#: to solve them, grow steeply with it. On three generated medium catalogues
+#: (bench seeds 0, 1, 2) this schedule took 10.8, 3.9 and 3.0 s where a first
+#: step of a tenth of the floor plus the largest fee, growing 4 x, took
+#: 24.2, 6.4 and 64.6 s.
+FIRST_STEP = 0.02
+GROWTH = 1.5
+
 
 @dataclass
 class Group:
@@ -256,9 +268,11 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
 
     Every design holding an option left out costs more than T; once the
     optimum z found below T satisfies z + (largest tie-break term) <= T, no
-    left-out option can be in an optimal design. A threshold that leaves no
-    feasible design is widened geometrically; a feasible optimum above
-    ``T - margin`` sets ``T = z + margin`` for one last solve.
+    left-out option can be in an optimal design. The first threshold lies
+    just above the floor of the bounds and a threshold that leaves no
+    feasible design is widened geometrically (:data:`FIRST_STEP`,
+    :data:`GROWTH`); a feasible optimum above ``T - margin`` sets
+    ``T = z + margin`` for one last solve.
 
     Each design found is a design of the whole problem: the next solve starts
     from it (:func:`solve_model`'s ``start``), and a solve stopped by the time
@@ -277,8 +291,7 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     if not math.isfinite(floor) or not len(finite):
         return _infeasible(solver)
     top = float(finite.max())
-    step = max(0.1 * abs(floor), 1.0) + max(problem.fees.values(), default=0.0)
-    threshold = floor + step
+    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
     best: Solution | None = None
     deadline = None if time_limit is None else _clock() + time_limit
     while True:
@@ -318,7 +331,7 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
                 continue
         if threshold >= top:
             return sol if sol is not None else _infeasible(solver)
-        threshold = min(top, floor + 4.0 * (threshold - floor))
+        threshold = min(top, floor + GROWTH * (threshold - floor))
 
 
 def _out_of_time(best: Solution | None, time_limit: float) -> Solution:

@@ -835,10 +835,11 @@ def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypa
     # Hand-worked: a0 (line LA, S1 only, 1.00), a1 (LA1, S2, 4.00) or a2 (LA2, S1, 20.00),
     # with b0 (LB, S2, 1.00); both fees 5.00. (a0, b0) = 1 + 1 + 10 = 12.00,
     # (a1, b0) = 4 + 1 + 5 = 10.00, (a2, b0) = 31.00. With the parts-only cost bounds
-    # (_two_solve_problem: a0 2, a1 5, a2 21, b0 2) the first threshold, 2 + 1 + 5 = 8, leaves a2 out and its
-    # optimum 10.00 lies above it: a second solve follows at 10.00 plus the margin. That
-    # one is made to stop "unproven" with a dearer design, as a time limit could; the
-    # design of the first solve comes back, marked not proven optimal.
+    # (_two_solve_problem: a0 2, a1 5, a2 21, b0 2) the first threshold, the floor 2 plus
+    # max(0.02 x 2, 1) = 3, holds a0 and b0 alone, and their design 12.00 lies above it: a
+    # second solve follows at 12.00 plus the margin (a0, a1, b0; optimum 10.00). That one
+    # is made to stop "unproven" with a dearer design, as a time limit could; the design
+    # of the first solve comes back, marked not proven optimal.
     p = _two_solve_problem(monkeypatch)
     assert brute_force(p).cost == pytest.approx(10.0)
     calls = []
@@ -853,15 +854,16 @@ def test_a_timed_out_solve_never_returns_a_dearer_design_than_one_found(monkeypa
 
     monkeypatch.setattr(milp, "solve_model", fake)
     sol = milp.solve(p, "cbc")
+    assert milp.FIRST_STEP == 0.02
     assert len(calls) == 2 and calls[0] is None and calls[1] is not None  # the second solve starts from the first design
-    assert calls[1].choice == {"a": 1, "b": 0}
+    assert calls[1].choice == {"a": 0, "b": 0}
     assert sol.status == "not proven optimal"
-    assert sol.total == pytest.approx(10.0)
-    assert sol.choice == {"a": 1, "b": 0}
+    assert sol.total == pytest.approx(12.0)
+    assert sol.choice == {"a": 0, "b": 0}
 
 
 def _two_solve_problem(monkeypatch) -> Problem:
-    """The hand-worked problem above: its threshold loop solves twice, optimum (a1, b0) at 10.00.
+    """The hand-worked problem above: its threshold loop solves twice, (a0, b0) at 12.00 then the optimum (a1, b0) at 10.00.
 
     The loop runs on the parts-only bounds (``prune.lower_bounds``, valid but
     weaker than ``design_bounds`` and ``supplier_set_bounds``, whose fees
@@ -882,11 +884,11 @@ def _two_solve_problem(monkeypatch) -> Problem:
 @pytest.mark.parametrize("first_takes, solves, status", [(7.0, 2, "optimal"), (12.0, 1, "not proven optimal")])
 def test_the_time_limit_bounds_the_whole_threshold_loop(monkeypatch, first_takes, solves, status) -> None:
     # A fake clock: the first solve "takes" first_takes seconds of a 10 s limit. Its design,
-    # (a1, b0) at 10.00, lies above the first threshold (8.00), so a second solve must
-    # prove it. Each full solve gets SOLVE_SHARE of what is left (both prove their optimum
-    # here, so no drop pass follows): the first 0.75 x 10 s, the second 0.75 x the 3 s
-    # left. Past the limit there is no second solve and the first design comes back, not
-    # proven optimal.
+    # (a0, b0) at 12.00, lies above the first threshold (3.00), so a second solve must
+    # find and prove the optimum 10.00. Each full solve gets SOLVE_SHARE of what is left
+    # (both prove their optimum here, so no drop pass follows): the first 0.75 x 10 s, the
+    # second 0.75 x the 3 s left. Past the limit there is no second solve and the first
+    # design comes back, not proven optimal.
     now = [0.0]
     limits = []
     real = milp.solve_model
@@ -905,8 +907,7 @@ def test_the_time_limit_bounds_the_whole_threshold_loop(monkeypatch, first_takes
     assert limits[0] == pytest.approx(0.75 * 10.0)
     if solves == 2:
         assert limits[1] == pytest.approx(0.75 * (10.0 - first_takes))
-    assert sol.total == pytest.approx(10.0)
-    assert sol.choice == {"a": 1, "b": 0}
+    assert (sol.total, sol.choice) == ((pytest.approx(10.0), {"a": 1, "b": 0}) if solves == 2 else (pytest.approx(12.0), {"a": 0, "b": 0}))
     assert sol.status == status
 
 
@@ -932,7 +933,7 @@ def test_no_design_when_the_time_limit_is_spent_is_an_error(monkeypatch) -> None
 def test_a_later_solve_without_a_design_in_time_keeps_the_design_found(monkeypatch) -> None:
     # The solve of the second threshold of the problem above stops at its time limit
     # without any design (the solver did not take up its start): the first design,
-    # (a1, b0) at 10.00, comes back not proven optimal instead of an error.
+    # (a0, b0) at 12.00, comes back not proven optimal instead of an error.
     real = milp.solve_model
     calls = []
 
@@ -946,7 +947,7 @@ def test_a_later_solve_without_a_design_in_time_keeps_the_design_found(monkeypat
     sol = milp.solve(_two_solve_problem(monkeypatch), "cbc", time_limit=10.0)
     assert len(calls) == 2
     assert sol.status == "not proven optimal"
-    assert sol.total == pytest.approx(10.0) and sol.choice == {"a": 1, "b": 0}
+    assert sol.total == pytest.approx(12.0) and sol.choice == {"a": 0, "b": 0}
 
 
 def test_the_drop_pass_finds_the_design_that_pays_one_fee_less(monkeypatch) -> None:
