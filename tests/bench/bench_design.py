@@ -46,7 +46,13 @@ cap is reported as unproven with its time, never as an optimum.
 Each worker runs under an address-space limit of ``--memory-limit`` GiB
 (default 8; ``RLIMIT_AS``, inherited by the solver processes), so that a size
 that outgrows the machine stops with a line naming the stage it reached
-instead of waking the kernel's out-of-memory killer.
+instead of waking the kernel's out-of-memory killer. A size whose partpick
+route stops (out of memory, partpick's own size limit, no design) is printed
+as one line with the reason. ``--bias-feed`` replaces the spec's
+``[stage] bias_feed``.
+
+Exit status 0 when every size finished with a proven optimum that every
+finished route agrees with; 1 otherwise (a stopped size included).
 """
 
 from __future__ import annotations
@@ -627,7 +633,7 @@ def main(argv: list[str] | None = None) -> int:
         m = json.loads(found[-1][len("RESULT "):])
         print(table(m))
         print(f"   wall time of this size incl. generation and baseline: {time.perf_counter() - t0:.1f} s", flush=True)
-        status |= "MISMATCH" in table(m) or "UNPROVEN" in table(m)
+        status |= "failed" in m or "MISMATCH" in table(m) or "UNPROVEN" in table(m)
     return int(status)
 
 
