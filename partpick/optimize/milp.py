@@ -49,9 +49,9 @@ DROP_MAX_S = 5.0
 #: floor. Small steps pay: a threshold problem without a design is proven so
 #: in well under a second, while the options under a threshold, and the time
 #: to solve them, grow steeply with it. On three generated medium catalogues
-#: (bench seeds 0, 1, 2) this schedule took 10.8, 3.9 and 3.0 s where a first
-#: step of a tenth of the floor plus the largest fee, growing 4 x, took
-#: 24.2, 6.4 and 64.6 s.
+#: (bench seeds 0, 1, 2) ``solve`` took 10.8, 3.9 and 3.0 s with this schedule,
+#: and 24.2, 6.4 and 64.6 s with a first step of a tenth of the floor plus the
+#: largest fee, growing 4 x.
 FIRST_STEP = 0.02
 GROWTH = 1.5
 
@@ -141,7 +141,7 @@ def _solver(name: str, time_limit: float | None, warm: bool = False):
         # brute force), and it took most of CBC's time on small models.
         # With a start design, its primal heuristics only look for a better one,
         # which the search finds anyway: off, the warm threshold solves of the
-        # medium benchmark took 4.4 and 5.6 s instead of 7.8 and 8.4 s (seeds 0, 3).
+        # medium benchmark took 5.1 and 6.0 s instead of 7.8 and 8.4 s (seeds 0, 3).
         return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, warmStart=warm,
                                  options=["randomSeed 1", "randomCbcSeed 1", "preprocess off"] + (["heur off"] if warm else []))
     if name == "highs":

@@ -139,9 +139,8 @@ def _needs(problem: Problem, g: str) -> tuple[np.ndarray, np.ndarray, list[str],
     """Every option's line needs of group ``g`` as arrays: (option, line id, line keys, units).
 
     One row per option and line, ordered by option; ``line keys[line id]``
-    is the row's line. The same figures as :func:`_option_need` option by
-    option (each use rounded as there, the uses of one line added in their
-    order).
+    is the row's line. The figures of :func:`_option_need` option by option
+    (each use rounded as there, the uses of one line added up).
     """
     usage = problem.groups[g].usage
     lengths = np.fromiter((len(u) for u in usage), dtype=np.int64, count=len(usage))
