@@ -230,3 +230,13 @@ def test_a_stage_too_large_to_optimise_stops_with_what_to_change(catalog, bench,
         assert 'set bias_feed = "resistor" under [stage]' in message
         cores = len(st.configs["core_i"].unique()) + len(st.rejected[st.rejected["rejected_by"] == "bias feed (s.3)"])
         assert f"{cores:,} output-stage configurations" in message
+
+
+def test_the_size_stop_suggests_the_resistor_feed_only_when_the_spec_lets_partpick_choose(bench) -> None:
+    from partpick.evaluate import stage as stage_module
+
+    _spec, pool, _targets, _st = bench
+    chosen = stage_module._too_many_feeds("current_source", 1234, pool)
+    assert "1,234 output-stage configurations" in chosen
+    assert "bias_feed" not in chosen and "To go on, keep fewer small-signal complementary pairs" in chosen
+    assert 'set bias_feed = "resistor"' in stage_module._too_many_feeds("auto", 1234, pool)
