@@ -304,7 +304,7 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
             # A design of cost <= threshold holds options of `inside` alone, so
             # the supplier-set bounds of that restriction may drop more of them
             # (not at the top threshold, which must hold every option).
-            by_set = reduce.supplier_set_bounds(reduce.restrict(problem, inside)) if threshold < top else None
+            by_set = reduce.supplier_set_bounds(reduce.restrict(problem, inside), threshold) if threshold < top else None
             if by_set is not None:
                 inside = {g: inside[g][by_set[g] <= threshold] for g in inside}
         if all(len(k) for k in inside.values()):

@@ -397,7 +397,7 @@ def _fee_floors_one_seller(problem: Problem) -> dict[str, np.ndarray]:
     return {g: np.maximum(v, max((least[h] for h in own if h != g), default=0.0)) for g, v in own.items()}
 
 
-def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
+def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> dict[str, np.ndarray] | None:
     """For each option, the least over supplier sets Y of Y's fees plus the parts bound buying from Y alone.
 
     A design buys from some set Y and pays its fees; its parts cost at least
@@ -414,6 +414,13 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     included), a line several groups share at its units times the lowest
     unit price in Y. The price depends only on which of the line's sellers
     Y holds, so it is computed once per subset of its sellers.
+
+    With ``threshold``, only the sets whose fees plus the least parts bound
+    of any option (:func:`lower_bounds`, every offer) stay within it are
+    evaluated: through any other set every option's bound exceeds the
+    threshold. A figure at or below the threshold is then the same as
+    without it; one above it only says that the option's bound exceeds the
+    threshold (which is all the threshold loop asks).
     """
     suppliers = sorted(problem.fees)
     n = len(suppliers)
@@ -422,7 +429,12 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
     n_sets = 1 << n
     pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
     cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())
-    if cells * n_sets > SET_BOUNDS_MAX_CELLS:
+    fee = _set_fees(problem, suppliers)
+    sets = np.arange(n_sets)
+    if threshold is not None:
+        floor = min((float(b.min()) for b in lower_bounds(problem).values() if len(b)), default=math.inf)
+        sets = np.flatnonzero(fee + floor <= threshold)
+    if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
         return None
     users = _line_users(problem)
     keys: dict[tuple, int] = {}
@@ -439,14 +451,14 @@ def supplier_set_bounds(problem: Problem) -> dict[str, np.ndarray] | None:
                 opt.append(o)
                 key_of.append(keys[key])
         rows[g] = (opt, key_of)
-    fee = _set_fees(problem, suppliers)
-    cost = np.array(figures).reshape(len(figures), n_sets)  # [key, Y]
+    cost = np.array(figures).reshape(len(figures), n_sets)[:, sets]  # [key, Y]
+    fee = fee[sets]
     pick = {g: (np.asarray(o, dtype=np.int64), np.asarray(k, dtype=np.int64)) for g, (o, k) in rows.items()}
     extra = {g: _weighted_changes(problem, g) for g in problem.groups}
     width = max(1, SET_BLOCK_CELLS // max(1, cells))
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
-    for lo in range(0, n_sets, width):
-        block = slice(lo, min(n_sets, lo + width))
+    for lo in range(0, len(sets), width):
+        block = slice(lo, min(len(sets), lo + width))
         own = {g: _sum_rows(*pick[g], cost[:, block], len(grp)) + extra[g][:, None] for g, grp in problem.groups.items()}
         for g, bound in _tree_bounds(problem, own, pairs).items():
             if len(bound):

@@ -873,7 +873,7 @@ def _two_solve_problem(monkeypatch) -> Problem:
     from partpick.optimize import prune
 
     monkeypatch.setattr(prune, "design_bounds", prune.lower_bounds)
-    monkeypatch.setattr(prune, "supplier_set_bounds", lambda problem: None)
+    monkeypatch.setattr(prune, "supplier_set_bounds", lambda problem, threshold=None: None)
     a = Group("a", ["a0", "a1", "a2"], [[("LA", 1.0, "r")], [("LA1", 1.0, "r")], [("LA2", 1.0, "r")]])
     b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
     offers = {"LA": [Offer("S1", 1, 1.0, 10, 1)], "LA1": [Offer("S2", 1, 4.0, 10, 1)],

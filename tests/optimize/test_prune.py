@@ -82,6 +82,25 @@ def test_cost_bounds_never_exceed_a_design_holding_the_option(problem: Problem) 
                 assert by_set[g][o] <= best.cost + 1e-9, (g, o)
 
 
+@settings(**SETTINGS)
+@given(problems(), st.floats(0.0, 1.5))
+def test_supplier_set_bounds_under_a_threshold_keep_every_option_the_whole_keeps(problem: Problem, share: float) -> None:
+    """With a threshold, the set bounds skip sets that cannot bring any option under it: same verdicts.
+
+    Every option at or below the threshold keeps its figure; every option
+    above it stays above it (its figure is a minimum over fewer sets).
+    """
+    whole = prune.supplier_set_bounds(problem)
+    finite = [float(b[np.isfinite(b)].max()) for b in whole.values() if np.isfinite(b).any()]
+    threshold = share * max(finite, default=1.0)
+    cut = prune.supplier_set_bounds(problem, threshold)
+    for g in whole:
+        under = whole[g] <= threshold
+        assert np.array_equal(cut[g] <= threshold, under), g
+        assert np.allclose(cut[g][under], whole[g][under], rtol=0, atol=1e-9), g
+        assert np.all(cut[g] >= whole[g] - 1e-9), g
+
+
 def _least_fees_holding(problem: Problem, g: str, o: int) -> float:
     """Brute force: the least order fees over every feasible design holding option ``o`` of ``g``.
 
