@@ -54,6 +54,16 @@ DROP_MAX_S = 5.0
 #: largest fee, growing 4 x.
 FIRST_STEP = 0.02
 GROWTH = 1.5
+#: A threshold problem of at least ``FIRST_DESIGN_MIN_OPTIONS`` options, with
+#: no design known yet, first gets one from :func:`_first_design`: the
+#: problem restricted to each of the ``FIRST_DESIGN_SETS`` supplier sets with
+#: the least set bound, each try capped at ``FIRST_DESIGN_TRY_S`` seconds.
+#: A solve with a start design runs several times faster (the medium
+#: benchmark's seed 3: a 2,800-option threshold problem 31 s without a start,
+#: 7.5 s from the design its best supplier set gave in 1.7 s).
+FIRST_DESIGN_MIN_OPTIONS = 1000
+FIRST_DESIGN_SETS = 2
+FIRST_DESIGN_TRY_S = 5.0
 
 
 @dataclass
@@ -306,13 +316,25 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
             # (not at the top threshold, which must hold every option).
             by_set = reduce.supplier_set_bounds(reduce.restrict(problem, inside), threshold) if threshold < top else None
             if by_set is not None:
-                inside = {g: inside[g][by_set[g] <= threshold] for g in inside}
+                inside = {g: inside[g][by_set.by_option[g] <= threshold] for g in inside}
         if all(len(k) for k in inside.values()):
             sub = reduce.restrict(problem, inside)
             keep = reduce.compose(inside, reduce.dominated(sub, {g: tie[g][inside[g]] for g in tie}))
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
                 return _out_of_time(best, time_limit)
+            if best is None and by_set is not None and sum(len(k) for k in keep.values()) >= FIRST_DESIGN_MIN_OPTIONS:
+                best = _first_design(problem, keep, tie, solver, by_set, left)
+                if best is not None:
+                    reach = objective_value(problem, best) + _tie_margin(problem, best)
+                    if threshold < reach <= floor + GROWTH * (threshold - floor):
+                        # No design below the threshold is known, and the next
+                        # one would hold this design anyway: prove it there.
+                        threshold = reach
+                        continue
+                left = None if deadline is None else deadline - _clock()
+                if left is not None and left <= 0:
+                    return _out_of_time(best, time_limit)
             try:
                 if left is None:
                     sol = _solve_reduced(problem, keep, tie, solver, None, start=best)
@@ -365,6 +387,47 @@ def _solve_then_drop(problem: Problem, keep: dict[str, np.ndarray], tie: dict[st
     return _drop_suppliers(problem, keep, tie, solver, sol, rest) if rest > 0 else sol
 
 
+def _first_design(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
+                  sets, left: float | None) -> Solution | None:
+    """A design to start a large threshold solve from, or None.
+
+    The threshold problem restricted to each of the :data:`FIRST_DESIGN_SETS`
+    supplier sets with the least set bound (``sets``, a
+    :class:`~partpick.optimize.prune.SetBounds`), each solved alone within
+    :data:`FIRST_DESIGN_TRY_S` (a quarter of what is left under a time
+    limit): few suppliers solve fast. The cheapest design found is a design
+    of the whole problem, not proven optimal.
+    """
+    from partpick.optimize.prune import restrict
+
+    sub = restrict(problem, keep)
+    sub_tie = {g: tie[g][keep[g]] for g in tie}
+    cap = FIRST_DESIGN_TRY_S if left is None else min(FIRST_DESIGN_TRY_S, 0.25 * left)
+    best = None
+    for i in np.argsort(sets.floor, kind="stable")[:FIRST_DESIGN_SETS].tolist():
+        if not math.isfinite(sets.floor[i]):
+            break
+        found = _with_suppliers(sub, sub_tie, solver, sets.sets[i], cap)
+        if found is not None:
+            found = _lift(found, keep)
+            if best is None or objective_value(problem, found) < objective_value(problem, best):
+                best = found
+    if best is not None:
+        best.status = "not proven optimal"
+    return best
+
+
+def _with_suppliers(problem: Problem, tie: dict[str, np.ndarray], solver: str, allowed, time_limit: float) -> Solution | None:
+    """The problem solved with the offers and fees of the ``allowed`` suppliers alone; None when that finds no design."""
+    narrow = replace(problem, line_offers={line: [o for o in offers if o.supplier in allowed] for line, offers in problem.line_offers.items()},
+                     fees={s: f for s, f in problem.fees.items() if s in allowed})
+    try:
+        found = solve_model(narrow, tie, solver, time_limit)
+    except SolverTimeout:
+        return None
+    return None if found.status == "infeasible" else found
+
+
 def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
                     sol: Solution, budget: float) -> Solution:
     """Try the design without each of its suppliers in turn; the cheapest design found.
@@ -389,14 +452,8 @@ def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str
             left = end - _clock()
             if left <= 0:
                 return best
-            allowed = set(best.suppliers_used) - {gone}
-            narrow = replace(sub, line_offers={line: [o for o in offers if o.supplier in allowed] for line, offers in sub.line_offers.items()},
-                             fees={s: f for s, f in sub.fees.items() if s in allowed})
-            try:
-                found = solve_model(narrow, sub_tie, solver, min(DROP_MAX_S, left))
-            except SolverTimeout:
-                continue
-            if found.status == "infeasible":
+            found = _with_suppliers(sub, sub_tie, solver, set(best.suppliers_used) - {gone}, min(DROP_MAX_S, left))
+            if found is None:
                 continue
             found = _lift(found, keep)
             if objective_value(problem, found) < objective_value(problem, best) - 1e-9:

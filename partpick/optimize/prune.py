@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -397,7 +398,22 @@ def _fee_floors_one_seller(problem: Problem) -> dict[str, np.ndarray]:
     return {g: np.maximum(v, max((least[h] for h in own if h != g), default=0.0)) for g, v in own.items()}
 
 
-def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> dict[str, np.ndarray] | None:
+@dataclass
+class SetBounds:
+    """What :func:`supplier_set_bounds` finds.
+
+    ``by_option``: per group, each option's bound. ``sets``: the supplier
+    sets evaluated; ``floor[i]``: a lower bound on every design that buys
+    from ``sets[i]`` alone, its fees included (the largest, over groups, of
+    the least bound of an option through that set).
+    """
+
+    by_option: dict[str, np.ndarray]
+    sets: list[frozenset[str]]
+    floor: np.ndarray
+
+
+def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> SetBounds | None:
     """For each option, the least over supplier sets Y of Y's fees plus the parts bound buying from Y alone.
 
     A design buys from some set Y and pays its fees; its parts cost at least
@@ -457,13 +473,17 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> dic
     extra = {g: _weighted_changes(problem, g) for g in problem.groups}
     width = max(1, SET_BLOCK_CELLS // max(1, cells))
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
+    floor = np.full(len(sets), -np.inf)
     for lo in range(0, len(sets), width):
         block = slice(lo, min(len(sets), lo + width))
         own = {g: _sum_rows(*pick[g], cost[:, block], len(grp)) + extra[g][:, None] for g, grp in problem.groups.items()}
         for g, bound in _tree_bounds(problem, own, pairs).items():
             if len(bound):
-                out[g] = np.minimum(out[g], (bound + fee[block]).min(axis=1))
-    return out
+                through = bound + fee[block]
+                out[g] = np.minimum(out[g], through.min(axis=1))
+                floor[block] = np.maximum(floor[block], through.min(axis=0))
+    held = [frozenset(s for i, s in enumerate(suppliers) if (y >> i) & 1) for y in sets.tolist()]
+    return SetBounds(out, held, floor)
 
 
 def _sum_rows(opt: np.ndarray, key: np.ndarray, cost: np.ndarray, n: int) -> np.ndarray:

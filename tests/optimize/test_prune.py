@@ -71,7 +71,7 @@ def test_pruning_with_weighted_changes_keeps_the_optimum(problem: Problem, weigh
 @given(problems())
 def test_cost_bounds_never_exceed_a_design_holding_the_option(problem: Problem) -> None:
     """The parts-only bounds, the bounds with fee floors and the supplier-set bounds, against brute force."""
-    parts, whole, by_set = prune.lower_bounds(problem), prune.design_bounds(problem), prune.supplier_set_bounds(problem)
+    parts, whole, by_set = prune.lower_bounds(problem), prune.design_bounds(problem), prune.supplier_set_bounds(problem).by_option
     for g, grp in problem.groups.items():
         for o in range(len(grp)):
             if g in problem.forced and problem.forced[g] != o:
@@ -90,10 +90,10 @@ def test_supplier_set_bounds_under_a_threshold_keep_every_option_the_whole_keeps
     Every option at or below the threshold keeps its figure; every option
     above it stays above it (its figure is a minimum over fewer sets).
     """
-    whole = prune.supplier_set_bounds(problem)
+    whole = prune.supplier_set_bounds(problem).by_option
     finite = [float(b[np.isfinite(b)].max()) for b in whole.values() if np.isfinite(b).any()]
     threshold = share * max(finite, default=1.0)
-    cut = prune.supplier_set_bounds(problem, threshold)
+    cut = prune.supplier_set_bounds(problem, threshold).by_option
     for g in whole:
         under = whole[g] <= threshold
         assert np.array_equal(cut[g] <= threshold, under), g
@@ -164,8 +164,15 @@ def test_supplier_set_bounds_by_hand(monkeypatch) -> None:
               "LB": [Offer("S1", 1, 1.0, 10, 1), Offer("S2", 1, 1.0, 10, 1)]}
     p = Problem({"a": a, "b": b}, [], offers, {"S1": 1.0, "S2": 10.0}, 1.0)
     assert prune.design_bounds(p)["a"].tolist() == [3.0]
-    assert prune.supplier_set_bounds(p)["a"].tolist() == [12.0]
+    found = prune.supplier_set_bounds(p)
+    assert found.by_option["a"].tolist() == [12.0]
     assert brute_force(p).cost == pytest.approx(12.0)
+    # Per set: nothing can be bought from no supplier; S1 alone 12, S2 alone 12, both 13.
+    assert dict(zip(found.sets, found.floor.tolist())) == {
+        frozenset(): math.inf, frozenset({"S1"}): 12.0, frozenset({"S2"}): 12.0, frozenset({"S1", "S2"}): 13.0}
+    # With a threshold of 12.5 the set of both (13) is not evaluated; a0 keeps 12.
+    under = prune.supplier_set_bounds(p, 12.5)
+    assert frozenset({"S1", "S2"}) not in under.sets and under.by_option["a"].tolist() == [12.0]
     # 2 options x 4 sets = 8 cells: within a cap of 8, none above a cap of 7 or one supplier.
     monkeypatch.setattr(prune, "SET_BOUNDS_MAX_CELLS", 8)
     assert prune.supplier_set_bounds(p) is not None
@@ -359,3 +366,59 @@ def test_array_needs_add_two_uses_of_one_line_by_hand() -> None:
     rows = sorted((o, names[i], q) for o, i, q in zip(opt.tolist(), ids.tolist(), units.tolist()))
     assert [(o, line) for o, line, _q in rows] == [(0, "A"), (0, "B"), (2, "B")]
     assert [q for *_k, q in rows] == pytest.approx([6.24, 8.32, 4.16], abs=1e-12)
+
+
+@settings(**SETTINGS)
+@given(problems())
+def test_a_first_design_from_few_suppliers_keeps_the_optimum_and_its_tie_break(problem: Problem) -> None:
+    """With the first-design step on every threshold problem (no size floor), the loop still gives the brute force's optimum."""
+    from partpick.optimize import milp
+
+    exact = brute_force(problem)
+    with pytest.MonkeyPatch.context() as m:
+        m.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 0)
+        pruned = solve(problem, "cbc")
+    whole = solve(problem, "cbc", prune=False)
+    if exact is None:
+        assert pruned.status == "infeasible"
+        return
+    assert pruned.status == "optimal"
+    assert pruned.total == pytest.approx(exact.cost, abs=COST_TOL)
+    assert pruned.choice == whole.choice
+
+
+def test_the_first_design_comes_from_the_cheapest_supplier_sets(monkeypatch) -> None:
+    """The hand-worked problem of test_supplier_set_bounds_by_hand, plus a1 (50.00 at S1): S1 or S2 alone give 12.00.
+
+    The bounds: a0 3 (parts 2, fees 1), a1 52. The loop's first threshold
+    problem that holds a0 (threshold 14.39: 3 + 1 x 1.5^6; below it a0's set
+    bound 12 leaves it out) gets its start design from the two cheapest sets
+    (S1 alone and S2 alone, floors 12, before both at 13), and the warm solve
+    proves 12.00.
+    """
+    from partpick.optimize import milp
+
+    a = Group("a", ["a0", "a1"], [[("LA", 1.0, "r")], [("LX", 1.0, "r")]])
+    b = Group("b", ["b0"], [[("LB", 1.0, "s")]])
+    offers = {"LA": [Offer("S1", 1, 10.0, 10, 1), Offer("S2", 1, 1.0, 10, 1)],
+              "LB": [Offer("S1", 1, 1.0, 10, 1), Offer("S2", 1, 1.0, 10, 1)], "LX": [Offer("S1", 1, 50.0, 10, 1)]}
+    p = Problem({"a": a, "b": b}, [], offers, {"S1": 1.0, "S2": 10.0}, 1.0)
+    assert prune.design_bounds(p)["a"].tolist() == [3.0, 52.0]
+    tried, starts = [], []
+    real_with, real_model = milp._with_suppliers, milp.solve_model
+
+    def spy_with(problem, tie, solver, allowed, time_limit):
+        tried.append(sorted(allowed))
+        return real_with(problem, tie, solver, allowed, time_limit)
+
+    def spy_model(problem, tie, solver="cbc", time_limit=None, start=None):
+        starts.append(None if start is None else round(start.total, 6))
+        return real_model(problem, tie, solver, time_limit, start=start)
+
+    monkeypatch.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 0)
+    monkeypatch.setattr(milp, "_with_suppliers", spy_with)
+    monkeypatch.setattr(milp, "solve_model", spy_model)
+    sol = solve(p, "cbc")
+    assert tried == [["S1"], ["S2"]]
+    assert starts[-1] == 12.0  # the full solve starts from the design found
+    assert sol.status == "optimal" and sol.total == pytest.approx(12.0)
