@@ -77,14 +77,17 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     ref_units = 2 * ch * k["ref_per_source"].to_numpy(int)
     rail_i = k["rail_i"].to_numpy(int)
     rail_usage = {i: _rail_usage(rails.iloc[i].to_dict(), use) for i in np.unique(rail_i).tolist()}
-    usage = []
-    for j in range(len(k)):
-        u = [use(mpn_n[j], None, ch, "output_npn"), use(mpn_p[j], None, ch, "output_pnp")]
-        if ccs[j]:
-            u += [use(src_p[j], None, ch, "bias_source_transistor"),
-                  use(src_n[j], None, ch, "bias_source_transistor"),
-                  use(ref[j], None, float(ref_units[j]), "bias_source_reference")]
-        usage.append(u + rail_usage[rail_i[j]])
+    # One use (and one tuple) per distinct part of a role; the rows share them.
+    out_n, out_p = _shared(use, mpn_n, ch, "output_npn"), _shared(use, mpn_p, ch, "output_pnp")
+    own_p = _shared(use, src_p, ch, "bias_source_transistor")
+    own_n = _shared(use, src_n, ch, "bias_source_transistor")
+    refs = _shared(use, ref, ref_units.astype(float), "bias_source_reference")
+    usage = [[a, b, c, d, e] + rail_usage[r] if s else [a, b] + rail_usage[r]
+             for a, b, c, d, e, s, r in zip(out_n, out_p, own_p, own_n, refs, ccs.tolist(), rail_i.tolist())]
+    # Lines in the order of their first use, row by row, as one use at a time would register them.
+    order = {key: lines[key] for key in dict.fromkeys(key for u in usage for key, _q, _r in u)}
+    lines.clear()
+    lines.update(order)
     groups["stage"] = Group("stage", list(k["key"]), usage)
     tables["stage"] = k
 
@@ -218,6 +221,19 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     factor = spec.order.boards * (1.0 + spec.order.spares_pct / 100.0)
     problem = Problem(groups, couplings, offers, fees, factor, spec.order.objective)
     return Assembly(problem, tables, lines, funnel, candidates)
+
+
+def _shared(use, sources: np.ndarray, per_board, role: str) -> list:
+    """``use(source, None, per_board, role)`` for every row, one call per distinct (source, per board); None where the source is None."""
+    per = np.broadcast_to(np.asarray(per_board, dtype=float), (len(sources),))
+    made: dict[tuple, tuple[str, float, str] | None] = {}
+    out = []
+    for src, q in zip(sources.tolist(), per.tolist()):
+        key = (src, q)
+        if key not in made:
+            made[key] = None if src is None else use(src, None, q, role)
+        out.append(made[key])
+    return out
 
 
 def _rail_usage(rail: dict, use) -> list:
