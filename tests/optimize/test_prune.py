@@ -369,16 +369,16 @@ def test_array_needs_add_two_uses_of_one_line_by_hand() -> None:
 
 
 @settings(**SETTINGS)
-@given(problems())
-def test_a_first_design_from_few_suppliers_keeps_the_optimum_and_its_tie_break(problem: Problem) -> None:
+@given(problems(), st.sampled_from(["cbc", "highs"]))
+def test_a_first_design_from_few_suppliers_keeps_the_optimum_and_its_tie_break(problem: Problem, solver: str) -> None:
     """With the first-design step on every threshold problem (no size floor), the loop still gives the brute force's optimum."""
     from partpick.optimize import milp
 
     exact = brute_force(problem)
     with pytest.MonkeyPatch.context() as m:
         m.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 0)
-        pruned = solve(problem, "cbc")
-    whole = solve(problem, "cbc", prune=False)
+        pruned = solve(problem, solver)
+    whole = solve(problem, solver, prune=False)
     if exact is None:
         assert pruned.status == "infeasible"
         return
