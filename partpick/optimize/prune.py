@@ -128,20 +128,13 @@ def _units(problem: Problem, per_board: float) -> float:
     return round(per_board * problem.factor, 6)
 
 
-def _option_need(problem: Problem, usage) -> dict[str, float]:
-    """Units of each line one option needs (its uses of a line added up)."""
-    need: dict[str, float] = {}
-    for line, per_board, _role in usage:
-        need[line] = need.get(line, 0.0) + _units(problem, per_board)
-    return need
-
-
 def _needs(problem: Problem, g: str) -> tuple[np.ndarray, np.ndarray, list[str], np.ndarray]:
     """Every option's line needs of group ``g`` as arrays: (option, line id, line keys, units).
 
     One row per option and line, ordered by option; ``line keys[line id]``
-    is the row's line. The figures of :func:`_option_need` option by option
-    (each use rounded as there, the uses of one line added up).
+    is the row's line. Its units are the option's uses of that line added
+    up, each use rounded as the MILP rounds it (``per_board x factor``,
+    6 decimals).
     """
     usage = problem.groups[g].usage
     lengths = np.fromiter((len(u) for u in usage), dtype=np.int64, count=len(usage))
@@ -194,12 +187,10 @@ def option_costs(problem: Problem) -> dict[str, np.ndarray]:
     out = {}
     for g, grp in problem.groups.items():
         opt, ids, names, units = needs[g]
-        # Price each distinct (line, units) once.
-        amounts, amount_of = np.unique(units, return_inverse=True)
-        pairs, back = np.unique(ids * len(amounts) + amount_of.reshape(-1), return_inverse=True)
-        price = np.empty(len(pairs))
-        for j, pair in enumerate(pairs.tolist()):
-            line, q = names[pair // len(amounts)], float(amounts[pair % len(amounts)])
+        distinct, back = _distinct_needs(ids, units)
+        price = np.empty(len(distinct))
+        for j, (i, q) in enumerate(distinct):
+            line = names[i]
             if users[line] == 1:
                 key = (line, math.ceil(q))
                 if key not in memo:
@@ -207,8 +198,16 @@ def option_costs(problem: Problem) -> dict[str, np.ndarray]:
                 price[j] = memo[key]
             else:
                 price[j] = q * pmin.get(line, math.inf)
-        out[g] = _sum_rows(opt, back.reshape(-1).astype(np.int64), price[:, None], len(grp))[:, 0] + _weighted_changes(problem, g)
+        out[g] = _sum_rows(opt, back, price[:, None], len(grp))[:, 0] + _weighted_changes(problem, g)
     return out
+
+
+def _distinct_needs(ids: np.ndarray, units: np.ndarray) -> tuple[list[tuple[int, float]], np.ndarray]:
+    """The distinct (line id, units) of :func:`_needs` rows, and each row's index among them (to price each once)."""
+    amounts, amount_of = np.unique(units, return_inverse=True)
+    pairs, back = np.unique(ids * len(amounts) + amount_of.reshape(-1), return_inverse=True)
+    distinct = [(pair // len(amounts), float(amounts[pair % len(amounts)])) for pair in pairs.tolist()]
+    return distinct, back.reshape(-1).astype(np.int64)
 
 
 def _users_of(needs: dict[str, tuple[np.ndarray, np.ndarray, list[str], np.ndarray]]) -> dict[str, int]:
@@ -448,28 +447,28 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     fee = _set_fees(problem, suppliers)
     sets = np.arange(n_sets)
     if threshold is not None:
-        floor = min((float(b.min()) for b in lower_bounds(problem).values() if len(b)), default=math.inf)
-        sets = np.flatnonzero(fee + floor <= threshold)
+        parts_floor = min((float(b.min()) for b in lower_bounds(problem).values() if len(b)), default=math.inf)
+        sets = np.flatnonzero(fee + parts_floor <= threshold)
     if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
         return None
-    users = _line_users(problem)
+    needs = {g: _needs(problem, g) for g in problem.groups}
+    users = _users_of(needs)
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
-    rows: dict[str, tuple[list[int], list[int]]] = {}
-    for g, grp in problem.groups.items():
-        opt, key_of = [], []
-        for o, usage in enumerate(grp.usage):
-            for line, units in _option_need(problem, usage).items():
-                key = (line, math.ceil(units)) if len(users[line]) == 1 else (line, units, "shared")
-                if key not in keys:
-                    keys[key] = len(figures)
-                    figures.append(_over_sets(problem.line_offers.get(line, []), suppliers, key))
-                opt.append(o)
-                key_of.append(keys[key])
-        rows[g] = (opt, key_of)
+    pick: dict[str, tuple[np.ndarray, np.ndarray]] = {}  # per group: (option, key) of each of its needs
+    for g, (opt, ids, names, units) in needs.items():
+        distinct, back = _distinct_needs(ids, units)
+        key_of = np.empty(len(distinct), dtype=np.int64)
+        for j, (i, q) in enumerate(distinct):
+            line = names[i]
+            key = (line, math.ceil(q)) if users[line] == 1 else (line, q, "shared")
+            if key not in keys:
+                keys[key] = len(figures)
+                figures.append(_over_sets(problem.line_offers.get(line, []), suppliers, key))
+            key_of[j] = keys[key]
+        pick[g] = (opt, key_of[back])
     cost = np.array(figures).reshape(len(figures), n_sets)[:, sets]  # [key, Y]
     fee = fee[sets]
-    pick = {g: (np.asarray(o, dtype=np.int64), np.asarray(k, dtype=np.int64)) for g, (o, k) in rows.items()}
     extra = {g: _weighted_changes(problem, g) for g in problem.groups}
     width = max(1, SET_BLOCK_CELLS // max(1, cells))
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}

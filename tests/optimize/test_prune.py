@@ -337,7 +337,7 @@ def test_coupled_pairs_by_hand() -> None:
 @settings(**SETTINGS)
 @given(problems(), st.sampled_from([1.0, 1.04, 3.0]))
 def test_array_needs_are_each_options_line_needs(problem: Problem, factor: float) -> None:
-    """``_needs`` (arrays, used by the cost bounds) against the option-by-option dict of ``_option_need``."""
+    """``_needs`` (arrays, used by the cost bounds) against an option-by-option dict of each use's rounded units."""
     problem = replace(problem, factor=factor)
     for g, grp in problem.groups.items():
         opt, ids, names, units = prune._needs(problem, g)
@@ -347,7 +347,9 @@ def test_array_needs_are_each_options_line_needs(problem: Problem, factor: float
             assert names[i] not in got.setdefault(o, {})  # one row per option and line
             got[o][names[i]] = q
         for o, usage in enumerate(grp.usage):
-            want = prune._option_need(problem, usage)
+            want: dict[str, float] = {}
+            for line, per_board, _role in usage:
+                want[line] = want.get(line, 0.0) + round(per_board * factor, 6)
             assert got.get(o, {}).keys() == want.keys()
             for line, q in want.items():
                 assert got[o][line] == pytest.approx(q, rel=1e-12, abs=1e-12)
