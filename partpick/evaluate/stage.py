@@ -119,6 +119,21 @@ class _Sink:
     channels: int  # channels on one sink
 
 
+@dataclass
+class _Feeds:
+    """Core configurations expanded by bias feed (see :func:`_feeds`).
+
+    A dataclass, not ``DataFrame.attrs``: pandas deep-copies ``attrs`` on
+    every operation, and ``options`` runs to a million rows.
+    """
+
+    rows: pd.DataFrame  # one row per (core configuration, feed variant)
+    options: pd.DataFrame  # feed-resistor lines, ``k`` indexing ``rows``
+    rth: np.ndarray  # [row, class] sink limits of rows with sources on the sink (NaN elsewhere)
+    unserved: np.ndarray  # core configurations no feed serves
+    unserved_r1_max: np.ndarray  # their largest feed resistor [ohm] (NaN under current sources)
+
+
 # --------------------------------------------------------------------------- rails
 
 
@@ -379,20 +394,21 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     core = core[core_ok].reset_index(drop=True)
     rth_max = rth_max[core_ok]
 
-    feeds = _feeds(spec, pool, targets, core, vd_min, sink)
+    fed = _feeds(spec, pool, targets, core, vd_min, sink)
+    feeds = fed.rows
     core_i = feeds["core_i"].to_numpy().astype(int)
     k = core.iloc[core_i].reset_index(drop=True)
     k["core_i"] = core_i
     for name in ("feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"):
         k[name] = feeds[name].to_numpy()
-    own = feeds.attrs["rth"]
+    own = fed.rth
     rth_k = np.where(np.isnan(own), rth_max[core_i], own)
     k["rth_sa_best_k_w"] = np.nanmax(rth_k, axis=1)
-    unserved = feeds.attrs["unserved"]
+    unserved = fed.unserved
     funnel["bias feed (s.3)"] = int(len(unserved))
     feed_rejected = core.iloc[unserved].copy()
     feed_rejected["rejected_by"] = "bias feed (s.3)"
-    feed_rejected["r1_max_ohm"] = feeds.attrs["unserved_r1_max"]
+    feed_rejected["r1_max_ohm"] = fed.unserved_r1_max
 
     # Regulator heat (model s.10), when the rail comes from a regulator.
     reg = rails.iloc[k["rail_i"].to_numpy()]
@@ -407,7 +423,7 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     # The funnel counts core configurations: one is removed here when none of its feeds survives.
     funnel["regulator heat (s.10)"] = int(len(np.setdiff1d(core_i, core_i[ok])))
     k, rth_k = k[ok].reset_index(drop=True), rth_k[ok]
-    feed_opts = feeds.attrs["options"]
+    feed_opts = fed.options
     feed_opts = _remap(feed_opts, np.flatnonzero(ok))
     k["key"] = _keys(k, rails, pairs)
 
@@ -422,20 +438,22 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     )
 
 
-def _stage_rth(spec: Spec, core: pd.DataFrame, sink: _Sink, p_extra_w: np.ndarray | float = 0.0) -> np.ndarray:
-    """Largest Rth_sa of every core configuration per mounting class [row, class].
+def _stage_rth(spec: Spec, core: pd.DataFrame, sink: _Sink, p_extra_w: np.ndarray | float = 0.0,
+               rows: np.ndarray | None = None) -> np.ndarray:
+    """Largest Rth_sa of every core configuration (or of ``rows`` of them) per mounting class [row, class].
 
     ``p_extra_w`` is heat on the sink beyond the output devices' (the current
-    sources when they are mounted there).
+    sources when they are mounted there), one value per row computed.
     """
-    pi_ = core["pair_i"].to_numpy(int)
-    col = lambda name: core[name].to_numpy(float)  # noqa: E731
+    pick = (lambda a: a) if rows is None else (lambda a: a[rows])  # noqa: E731
+    pi_ = pick(core["pair_i"].to_numpy(int))
+    col = lambda name: pick(core[name].to_numpy(float))  # noqa: E731
     limits = [
         _rth_sa_max(spec, sink.pairs, pi_, col("p_device_w"), sink.n_dev, col("soa_util"), col("rail_max_v"),
                     col("re_ohm"), col("iq_a"), c, p_extra_w)
         for c in sink.classes
     ]
-    return np.stack(limits, axis=1) if len(core) else np.zeros((0, len(sink.classes)))
+    return np.stack(limits, axis=1) if len(pi_) else np.zeros((0, len(sink.classes)))
 
 
 def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_class, p_extra_w=0.0) -> np.ndarray:
@@ -449,8 +467,11 @@ def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_c
     for s in ("_n", "_p"):
         tj_max = pairs["tj_max_c" + s].to_numpy(float)[pi_]
         rth_jc = pairs["rth_jc_k_w" + s].to_numpy(float)[pi_]
-        package = pairs["package"].to_numpy()[pi_]
-        rth_cs = np.asarray(thermal.rth_cs_default_k_w(package), float) if math.isnan(rth_cs_class) else np.full(len(pi_), rth_cs_class)
+        if math.isnan(rth_cs_class):
+            packages, of_pair = np.unique(pairs["package"].to_numpy(str), return_inverse=True)
+            rth_cs = np.asarray(thermal.rth_cs_default_k_w(packages), float).reshape(-1)[of_pair][pi_]
+        else:
+            rth_cs = np.full(len(pi_), rth_cs_class)
         p_sink = n_dev * p_dev + p_extra_w
         tj_lim = tj_max - spec.thermal.tj_derate_c
         by_tj = thermal.required_rth_sa_k_w(tj_lim, amb, p_dev, rth_jc, rth_cs, p_sink)
@@ -466,16 +487,15 @@ def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_c
     return out
 
 
-def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float, sink: _Sink) -> pd.DataFrame:
+def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float, sink: _Sink) -> _Feeds:
     """Expand core configurations by bias feed; attach the feed-resistor options.
 
-    Returns one row per (core config, feed variant) that some resistor family
-    can build, with ``standing_a`` and the current-source mounting;
-    ``attrs['options']`` lists the feed-resistor lines (compat with the
-    expanded rows), ``attrs['rth']`` the heatsink limits [row, class] of rows
-    whose current sources sit on the heatsink (NaN elsewhere: the core
-    configuration's own limits hold), ``attrs['unserved']`` the core
-    configurations no feed can serve.
+    ``rows`` has one row per (core config, feed variant) that some resistor
+    family can build, with ``standing_a`` and the current-source mounting;
+    ``options`` lists the feed-resistor lines (compat with the expanded rows),
+    ``rth`` the heatsink limits [row, class] of rows whose current sources sit
+    on the heatsink (NaN elsewhere: the core configuration's own limits hold),
+    ``unserved`` the core configurations no feed can serve.
     """
     fams = pool.passives[pool.passives["kind"] == "resistor"].reset_index(drop=True)
     mode = spec.stage.bias_feed
@@ -531,13 +551,14 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
             offset += len(idx)
             ccs_ok[idx] = True
     columns = ["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"]
-    out = pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=columns)
-    out.attrs["options"] = pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"])
-    out.attrs["rth"] = np.concatenate(rth) if rth else np.zeros((0, n_cls))
     unserved = np.flatnonzero(~(res_ok | ccs_ok))
-    out.attrs["unserved"] = unserved
-    out.attrs["unserved_r1_max"] = r1_max[unserved] if mode != "current_source" else np.full(len(unserved), np.nan)
-    return out
+    return _Feeds(
+        rows=pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=columns),
+        options=pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"]),
+        rth=np.concatenate(rth) if rth else np.zeros((0, n_cls)),
+        unserved=unserved,
+        unserved_r1_max=r1_max[unserved] if mode != "current_source" else np.full(len(unserved), np.nan),
+    )
 
 
 def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame, sink: _Sink):
@@ -572,6 +593,9 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     compliance = swing.ccs_compliance_margin_v(rail_min, base_pk) >= 0
     span = core["span_max_v"].to_numpy(float)
     amb = spec.thermal.ambient_c
+    family = fams["family"].to_numpy(object)
+    power_w = fams["power_w"].to_numpy(float)
+    series_groups = [(key, list(members)) for key, members in fams.groupby(["series", "value_min", "value_max"], sort=False, dropna=False).indices.items()]
     for s in small.itertuples(index=False):
         dev = _ccs_device(s, spec)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
@@ -581,30 +605,39 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
             room = vref - vbe_req >= CCS_MIN_RE_DROP_V
             if not room.any():
                 continue
-            per_fam = []
-            for f in fams.itertuples(index=False):
-                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe_req, i_req), f.series, f.value_min, f.value_max), float)
+            # Families of one E-series and value range give the same resistor
+            # values and currents; only their power rating tells them apart.
+            per_fam: list = [None] * len(fams)
+            for (series, v_min, v_max), members in series_groups:
+                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe_req, i_req), series, v_min, v_max), float)
                 with np.errstate(divide="ignore", invalid="ignore"):
                     i_lo, i_act = dev["current"](vref, r_e)
                     i_ref = swing.ccs_reference_current_a(i_act, dev["hfe"](i_act))
-                    r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(rail_min, vref, i_ref), f.series, f.value_min, f.value_max), float)
+                    r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(rail_min, vref, i_ref), series, v_min, v_max), float)
                     i_ref_max = (rail_max - vref) / r_ref
                     p_e = i_act**2 * r_e
                     p_ref = (rail_max - vref) ** 2 / r_ref
-                fits = (
+                built = (
                     room & compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref) & (i_lo >= i_need)
                     & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
-                    & (f.power_w >= RESISTOR_POWER_MARGIN * p_e) & (f.power_w >= RESISTOR_POWER_MARGIN * p_ref)
                 )
-                per_fam.append((f.family, r_e, r_ref, p_e, p_ref, np.where(fits, i_act, 0.0)))
+                p_most = np.maximum(p_e, p_ref)
+                free_air_ok = _ccs_thermal_ok(dev, "free_air", rail_max, i_act, amb) if "free_air" in mounts else None
+                for m in members:
+                    fits = built & (power_w[m] >= RESISTOR_POWER_MARGIN * p_most)
+                    per_fam[m] = (family[m], r_e, r_ref, p_e, p_ref, i_act, fits, free_air_ok)
             for mount in mounts:
-                fam_fits = [_ccs_thermal_ok(dev, mount, rail_max, i_f, amb) & (i_f > 0) for *_r, i_f in per_fam]
+                # In free air each source's junction and SOA must hold; on the sink they join the sink limits.
+                fam_fits = [fits & thermal if mount == "free_air" else fits for *_r, fits, thermal in per_fam]
                 best = np.zeros(len(core))
-                for (*_r, i_f), ok in zip(per_fam, fam_fits):
-                    best = np.maximum(best, np.where(ok, i_f, 0.0))
+                for (*_r, i_act, _f, _t), ok in zip(per_fam, fam_fits):
+                    best = np.maximum(best, np.where(ok, i_act, 0.0))
                 limits = None
                 if mount == "heatsink":
-                    limits = _ccs_sink_limits(spec, core, sink, dev, rail_max, best)
+                    # Only rows a source can feed need the sink limits; the others stay unserved.
+                    cand = np.flatnonzero(best > 0)
+                    limits = np.full((len(core), len(sink.classes)), -np.inf)
+                    limits[cand] = _ccs_sink_limits(spec, core, sink, dev, rail_max, best, cand)
                     best = np.where(np.nanmax(limits, axis=1) > 0, best, 0.0)
                 idx = np.flatnonzero(best > 0)
                 if not len(idx):
@@ -619,8 +652,12 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                 chosen = [(f, np.flatnonzero(ok & (best > 0))) for f, ok in zip(per_fam, fam_fits)]
 
                 def options(chosen=chosen, pos=pos) -> pd.DataFrame:
-                    return pd.concat([pd.DataFrame(dict(row=pos[ks], family=fam, kind="ccs_resistors", v1=r_e[ks], v2=r_ref[ks], p1_w=p_e[ks], p2_w=p_ref[ks]))
-                                      for (fam, r_e, r_ref, p_e, p_ref, _i), ks in chosen], ignore_index=True)
+                    cat = lambda j: np.concatenate([f[j][ks] for f, ks in chosen])  # noqa: E731
+                    ks_all = np.concatenate([ks for _f, ks in chosen])
+                    return pd.DataFrame(dict(
+                        row=pos[ks_all], family=np.repeat(np.array([f[0] for f, _ks in chosen], dtype=object), [len(ks) for _f, ks in chosen]),
+                        kind="ccs_resistors", v1=cat(1), v2=cat(2), p1_w=cat(3), p2_w=cat(4),
+                    ))
 
                 yield idx, frame, sum(len(ks) for _f, ks in chosen), options, (None if limits is None else limits[idx])
 
@@ -677,9 +714,17 @@ def ccs_pair_current_bounds_a(v_ref_v, r_e_ohm, *vbe_data: tuple[float, float]) 
 
 
 def _ccs_soa_util(dev: dict, rail_max: np.ndarray, i_a: np.ndarray) -> np.ndarray:
-    """Ic / I_soa,25C of a source transistor at ``Vce = 2 Vs_max`` (its worst point)."""
+    """Ic / I_soa,25C of a source transistor at ``Vce = 2 Vs_max`` (its worst point).
+
+    The SOA limit is computed once per distinct rail (rows share a few) and
+    kept in ``dev`` for the device's next call with the same rails.
+    """
+    if dev.get("soa_2vs_of") is not rail_max:
+        values, inverse = np.unique(2.0 * np.asarray(rail_max, float), return_inverse=True)
+        dev["soa_2vs"] = dev["soa"](values)[inverse]
+        dev["soa_2vs_of"] = rail_max
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(i_a > 0, i_a / np.maximum(dev["soa"](2.0 * rail_max), 1e-12), 0.0)
+        return np.where(i_a > 0, i_a / np.maximum(dev["soa_2vs"], 1e-12), 0.0)
 
 
 def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray, amb: float) -> np.ndarray:
@@ -692,18 +737,20 @@ def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray
     return (tj <= dev["tj_limit_c"]) & (_ccs_soa_util(dev, rail_max, i_a) <= derate)
 
 
-def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray) -> np.ndarray:
-    """Largest Rth_sa per mounting class with the current sources on the sink [row, class].
+def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
+                     rows: np.ndarray) -> np.ndarray:
+    """Largest Rth_sa per mounting class with the current sources on the sink [row of ``rows``, class].
 
     The output devices' limits with the sources' heat added to the sink, and
     the source transistor's own junction and SOA at its case temperature.
     """
     amb = spec.thermal.ambient_c
+    util = _ccs_soa_util(dev, rail_max, i_a)[rows]
+    rail_max, i_a = rail_max[rows], i_a[rows]
     extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
-    outputs = _stage_rth(spec, core, sink, extra)
-    p_sink = sink.n_dev * core["p_device_w"].to_numpy(float) + extra
+    outputs = _stage_rth(spec, core, sink, extra, rows)
+    p_sink = sink.n_dev * core["p_device_w"].to_numpy(float)[rows] + extra
     p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
-    util = _ccs_soa_util(dev, rail_max, i_a)
     own = []
     for c in sink.classes:
         rth_cs = float(thermal.rth_cs_default_k_w(dev["package"])) if math.isnan(c) else c
@@ -798,9 +845,11 @@ def _remap(opts: pd.DataFrame, kept: np.ndarray) -> pd.DataFrame:
     """Renumber option compat after dropping configurations; drop options of dropped ones."""
     new = -np.ones(int(opts["k"].max()) + 1 if len(opts) else 0, dtype=int)
     new[kept[kept < len(new)]] = np.arange(len(kept))[kept < len(new)]
-    opts = opts.copy()
-    opts["k"] = new[opts["k"].to_numpy()] if len(opts) else opts["k"]
-    return opts[opts["k"] >= 0].reset_index(drop=True)
+    k = new[opts["k"].to_numpy()] if len(opts) else opts["k"].to_numpy()
+    keep = k >= 0
+    out = opts.reset_index(drop=True) if keep.all() else opts[keep].reset_index(drop=True)
+    out["k"] = k[keep]
+    return out
 
 
 def _keys(k: pd.DataFrame, rails: pd.DataFrame, pairs: pd.DataFrame) -> list[str]:

@@ -240,3 +240,47 @@ def test_the_size_stop_suggests_the_resistor_feed_only_when_the_spec_lets_partpi
     assert "1,234 output-stage configurations" in chosen
     assert "bias_feed" not in chosen and "To go on, keep fewer small-signal complementary pairs" in chosen
     assert 'set bias_feed = "resistor"' in stage_module._too_many_feeds("auto", 1234, pool)
+
+
+def test_resistor_families_of_one_series_differ_only_by_their_power_rating(catalog, bench):
+    """Current-source resistor options of families that share an E-series and value range.
+
+    The stage computes the values once per (series, range) and filters each
+    family by its own rating (model s.3 (a'): both resistors within
+    rating / RESISTOR_POWER_MARGIN). A twin of AR-MO24-1W rated at the median
+    of the power its options need must get exactly the original's options
+    that fit that rating, with the same values; an E12 twin must get E12
+    values only (IEC 60063 E12: 10 12 15 18 22 27 33 39 47 56 68 82).
+    """
+    import dataclasses
+
+    import pandas as pd
+
+    from partpick.model.defaults import RESISTOR_POWER_MARGIN
+
+    spec, pool, targets, st = bench
+    original = pool.passives[pool.passives["family"] == "AR-MO24-1W"].iloc[0]
+    opts = st.feed_options[(st.feed_options["family"] == "AR-MO24-1W") & (st.feed_options["kind"] == "ccs_resistors")]
+    need = RESISTOR_POWER_MARGIN * np.maximum(opts["p1_w"], opts["p2_w"])
+    rating = float(np.median(need))
+    twin = original.copy()
+    twin["family"], twin["power_w"] = "TWIN-LOW", rating
+    e12 = original.copy()
+    e12["family"], e12["series"], e12["power_w"] = "TWIN-E12", "E12", 100.0
+    passives = pd.concat([pool.passives, pd.DataFrame([twin, e12])], ignore_index=True)
+    st2 = evaluate_stage(spec, dataclasses.replace(pool, passives=passives), targets)
+    # The E12 twin at 100 W may serve configurations the 1 W families cannot;
+    # every original configuration stays, with the same key.
+    assert set(st.configs["key"]) <= set(st2.configs["key"])
+    k_of = dict(zip(st2.configs["key"], range(len(st2.configs))))
+    low = st2.feed_options[st2.feed_options["family"] == "TWIN-LOW"]
+    expected = opts[need <= rating].assign(k=lambda f: [k_of[key] for key in st.configs["key"].to_numpy()[f["k"].to_numpy()]])
+    assert 0 < len(low) < len(opts)
+    got = low.sort_values("k")[["k", "v1", "v2", "p1_w", "p2_w"]].reset_index(drop=True)
+    want = expected.sort_values("k")[["k", "v1", "v2", "p1_w", "p2_w"]].reset_index(drop=True)
+    pd.testing.assert_frame_equal(got, want, check_dtype=False)
+    twin_rows = st2.feed_options[(st2.feed_options["family"] == "TWIN-E12") & (st2.feed_options["kind"] == "ccs_resistors")]
+    e12_values = twin_rows[["v1", "v2"]].to_numpy().ravel()
+    assert len(e12_values) > 0 and np.isfinite(e12_values).all()
+    mantissa = np.round(e12_values / 10 ** np.floor(np.log10(e12_values)) * 10).astype(int)
+    assert set(mantissa) <= {10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82}
