@@ -171,15 +171,21 @@ def _set_fees(problem: Problem, suppliers: list[str]) -> np.ndarray:
 # --------------------------------------------------------------------------- cost bounds
 
 
-def option_costs(problem: Problem) -> dict[str, np.ndarray]:
+def _all_needs(problem: Problem) -> dict[str, tuple[np.ndarray, np.ndarray, list[str], np.ndarray]]:
+    """:func:`_needs` of every group."""
+    return {g: _needs(problem, g) for g in problem.groups}
+
+
+def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.ndarray]:
     """A lower bound on what each option adds to the order (fees left out).
 
     A line only this group uses costs at least its cheapest purchase of the
     option's units; a line several groups share at least the units times its
     cheapest unit price (the need of a shared line is the sum of its users').
-    With ``change_weight``, the weighted changes are added.
+    With ``change_weight``, the weighted changes are added. ``needs``:
+    :func:`_all_needs` of ``problem`` when the caller has it.
     """
-    needs = {g: _needs(problem, g) for g in problem.groups}
+    needs = needs if needs is not None else _all_needs(problem)
     users = _users_of(needs)
     memo: dict[tuple[str, int], float] = {}
     pmin = {line: min((p for _s, _low, p, _st in usable(offers)), default=math.inf)
@@ -248,32 +254,95 @@ def compat_pairs(grp: Group) -> tuple[np.ndarray, np.ndarray]:
     return parents, np.repeat(np.arange(len(grp)), lengths)
 
 
-def _segment_min(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
-    """``out[i]`` = the least ``values[j]`` (a row when 2-D) over ``index[j] == i``; inf where none."""
-    out = np.full((n,) + values.shape[1:], np.inf)
-    if len(index):
-        order = np.argsort(index, kind="stable")
-        idx = index[order]
-        starts = np.flatnonzero(np.r_[True, idx[1:] != idx[:-1]])
-        out[idx[starts]] = np.minimum.reduceat(values[order], starts, axis=0)
+def _set_classes(rows: np.ndarray, members: np.ndarray, n_rows: int) -> np.ndarray:
+    """A class per row such that rows share a class exactly when they hold the same set of members.
+
+    ``(rows[j], members[j])`` are the pairs (repeats allowed). The sets are
+    numbered 62 members at a time, each slice as the bits of an integer, so
+    the classes are exact (no hashing) and no Python runs per row.
+    """
+    code = np.zeros(n_rows, dtype=np.int64)
+    if not len(rows):
+        return code
+    order = np.argsort(members, kind="stable")
+    r, m = rows[order], members[order]
+    cuts = np.searchsorted(m, np.arange(0, int(m[-1]) + 63, 62))
+    for c in range(len(cuts) - 1):
+        lo, hi = cuts[c], cuts[c + 1]
+        if lo == hi:
+            continue
+        bits = np.zeros(n_rows, dtype=np.int64)
+        np.bitwise_or.at(bits, r[lo:hi], np.int64(1) << (m[lo:hi] - 62 * c))
+        part = np.unique(bits, return_inverse=True)[1].reshape(-1)
+        code = np.unique(code * (int(part.max()) + 1) + part, return_inverse=True)[1].reshape(-1)
+    return code
+
+
+@dataclass
+class _Links:
+    """A child group's compatible pairs, sorted once for the bounds' repeated minima.
+
+    Parents that suit the same set of child options share a class (with
+    ``classes``; otherwise each parent is its own class), and the minima run
+    over one representative pair per (class, child): the many stage
+    configurations of a large catalogue share a few heatsink and bias-feed
+    sets. The least over a child's parents is the least over its classes of
+    the least within each class, since a child suits every parent of a class
+    or none.
+    """
+
+    parent_class: np.ndarray  # class of each parent option
+    n_classes: int
+    members: tuple[np.ndarray, np.ndarray, np.ndarray]  # parents sorted by class; run starts; class of each run
+    down: tuple[np.ndarray, np.ndarray, np.ndarray]  # children of the (class, child) pairs sorted by class; starts; class
+    up: tuple[np.ndarray, np.ndarray, np.ndarray]  # classes of the pairs sorted by child; starts; child
+    n_kids: int
+
+    @classmethod
+    def of(cls, problem: Problem, g: str, classes: bool = False) -> _Links:
+        grp = problem.groups[g]
+        parents, kids = compat_pairs(grp)
+        n_parent = len(problem.groups[grp.parent])
+        if classes:
+            parent_class = _set_classes(parents, kids, n_parent)
+            n_classes = int(parent_class.max()) + 1 if n_parent else 0
+            first = np.full(n_classes, -1, dtype=np.int64)
+            first[parent_class[::-1]] = np.arange(n_parent - 1, -1, -1)  # the first parent of each class
+            rep = first[parent_class[parents]] == parents
+            cls_of, kid_of = parent_class[parents[rep]], kids[rep]
+        else:
+            parent_class, n_classes = np.arange(n_parent, dtype=np.int64), n_parent
+            cls_of, kid_of = parents, kids
+        return cls(parent_class, n_classes, _runs(np.arange(n_parent, dtype=np.int64), parent_class),
+                   _runs(kid_of, cls_of), _runs(cls_of, kid_of), len(grp))
+
+    def min_over_children(self, value: np.ndarray) -> np.ndarray:
+        """For each parent option, the least ``value`` among the child options that suit it (inf if none)."""
+        return _run_min(value, self.down, self.n_classes)[self.parent_class]
+
+    def min_over_parents(self, value: np.ndarray) -> np.ndarray:
+        """For each child option, the least ``value`` among the parent options it suits (inf if none)."""
+        return _run_min(_run_min(value, self.members, self.n_classes), self.up, self.n_kids)
+
+
+def _runs(items: np.ndarray, by: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``items`` sorted by ``by``, the start of each run of equal ``by``, and that value."""
+    order = np.argsort(by, kind="stable")
+    key = by[order]
+    starts = np.flatnonzero(np.r_[True, key[1:] != key[:-1]]) if len(key) else np.zeros(0, np.int64)
+    return items[order], starts, key[starts]
+
+
+def _run_min(value: np.ndarray, runs: tuple[np.ndarray, np.ndarray, np.ndarray], n: int) -> np.ndarray:
+    """``out[at]`` = the least ``value[items]`` over each run of :func:`_runs`; inf where no run."""
+    items, starts, at = runs
+    out = np.full((n,) + value.shape[1:], np.inf)
+    if len(items):
+        out[at] = np.minimum.reduceat(value[items], starts, axis=0)
     return out
 
 
-def _min_over_children(problem: Problem, child: str, value: np.ndarray, pairs=None) -> np.ndarray:
-    """For each parent option, the least ``value`` among the child options that suit it (inf if none)."""
-    grp = problem.groups[child]
-    parents, kids = pairs or compat_pairs(grp)
-    return _segment_min(parents, value[kids], len(problem.groups[grp.parent]))
-
-
-def _min_over_parents(problem: Problem, child: str, value: np.ndarray, pairs=None) -> np.ndarray:
-    """For each child option, the least ``value`` among the parent options it suits (inf if none)."""
-    grp = problem.groups[child]
-    parents, kids = pairs or compat_pairs(grp)
-    return _segment_min(kids, value[parents], len(grp))
-
-
-def lower_bounds(problem: Problem) -> dict[str, np.ndarray]:
+def lower_bounds(problem: Problem, needs: dict | None = None) -> dict[str, np.ndarray]:
     """For each option, a lower bound on the cost of any feasible design that holds it.
 
     ``full(o)`` is the option's own cost plus, for each child group, the least
@@ -285,19 +354,19 @@ def lower_bounds(problem: Problem) -> dict[str, np.ndarray]:
     ``inf`` marks options that cannot be part of any design (no compatible
     child in some child group, or a line that cannot be bought).
     """
-    return _tree_bounds(problem, option_costs(problem))
+    return _tree_bounds(problem, option_costs(problem, needs))
 
 
-def _tree_bounds(problem: Problem, own: dict[str, np.ndarray], pairs: dict | None = None) -> dict[str, np.ndarray]:
+def _tree_bounds(problem: Problem, own: dict[str, np.ndarray], links: dict[str, _Links] | None = None) -> dict[str, np.ndarray]:
     """:func:`lower_bounds` from given own costs: one per option, or a row per option (one column per scenario)."""
-    pairs = pairs if pairs is not None else {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
+    links = links if links is not None else {g: _Links.of(problem, g) for g, grp in problem.groups.items() if grp.parent is not None}
     kids = _children(problem)
     full: dict[str, np.ndarray] = {}
     share: dict[str, np.ndarray] = {}  # child group -> its contribution to each parent option
     for g in sorted(problem.groups, key=lambda name: -_depth(problem, name)):
         total = own[g].copy()
         for h in kids[g]:
-            share[h] = _min_over_children(problem, h, full[h], pairs[h])
+            share[h] = links[h].min_over_children(full[h])
             total = total + share[h]
         full[g] = total
     roots = [g for g, grp in problem.groups.items() if grp.parent is None]
@@ -310,7 +379,7 @@ def _tree_bounds(problem: Problem, own: dict[str, np.ndarray], pairs: dict | Non
         if grp.parent is not None and grp.parent == root:
             with np.errstate(invalid="ignore"):
                 rest = np.where(np.isfinite(full[root]), full[root] - share[g], np.inf)
-            bound = bound + _min_over_parents(problem, g, rest, pairs[g])
+            bound = bound + links[g].min_over_parents(rest)
         out[g] = bound
     return out
 
@@ -318,7 +387,7 @@ def _tree_bounds(problem: Problem, own: dict[str, np.ndarray], pairs: dict | Non
 # --------------------------------------------------------------------------- fee floors
 
 
-def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
+def fee_floors(problem: Problem, needs: dict | None = None) -> dict[str, np.ndarray]:
     """For each option, a lower bound on the order fees of any design that holds it.
 
     A design pays the fee of every supplier it buys from, and each line it
@@ -331,6 +400,7 @@ def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
     bit mask per set); with more, the bound falls back to the largest, over
     the lines the design must buy, of the cheapest fee of a seller of that
     line. ``inf`` marks options whose lines no supplier set can sell.
+    ``needs``: :func:`_all_needs` of ``problem`` when the caller has it.
     """
     suppliers = sorted(problem.fees)
     if len(suppliers) > FEE_SUBSETS_MAX_SUPPLIERS:
@@ -339,16 +409,12 @@ def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
     sets = np.arange(1 << len(suppliers), dtype=np.int64)
     fee = _set_fees(problem, suppliers)
     sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
+    needs = needs if needs is not None else _all_needs(problem)
     # Per group: the distinct seller-mask sets of its options, and each option's one.
     keys: dict[str, list[tuple[int, ...]]] = {}
     key_of: dict[str, np.ndarray] = {}
     for g, grp in problem.groups.items():
-        index: dict[tuple[int, ...], int] = {}
-        of = np.empty(len(grp), dtype=np.int64)
-        for o, usage in enumerate(grp.usage):
-            key = tuple(sorted({sellers.get(line, 0) for line, _q, _r in usage}))
-            of[o] = index.setdefault(key, len(index))
-        keys[g], key_of[g] = list(index), of
+        keys[g], key_of[g] = _seller_keys(len(grp), *needs[g][:3], sellers)
     memo: dict[tuple[int, ...], np.ndarray] = {}
 
     def can_sell(key: tuple[int, ...]) -> np.ndarray:
@@ -370,6 +436,30 @@ def fee_floors(problem: Problem) -> dict[str, np.ndarray]:
         per_key = np.array([_least(fee[can_sell(k) & others]) for k in keys[g]])
         out[g] = per_key[key_of[g]] if len(per_key) else np.zeros(0)
     return out
+
+
+def _seller_keys(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[str], sellers: dict[str, int]) -> tuple[list[tuple[int, ...]], np.ndarray]:
+    """The distinct sets of seller masks of a group's options (sorted tuples), and each option's index among them.
+
+    From :func:`_needs` rows: each option's lines give their seller masks; an
+    option with no line has the empty set. Options are told apart by a bit
+    row over the masks the group uses, numbered exactly 62 bits at a time, so
+    no Python runs per option.
+    """
+    line_mask = np.array([sellers.get(name, 0) for name in names], dtype=np.int64)
+    masks, mask_i = np.unique(line_mask[ids], return_inverse=True) if len(ids) else (np.zeros(0, np.int64), np.zeros(0, np.int64))
+    has = np.zeros((n_options, len(masks)), dtype=bool)
+    has[opt, mask_i.reshape(-1)] = True
+    # Number the distinct bit rows 62 bits at a time (an exact code, no hashing).
+    key_of = np.zeros(n_options, dtype=np.int64)
+    for start in range(0, len(masks), 62):
+        chunk = has[:, start:start + 62].astype(np.int64) @ (np.int64(1) << np.arange(min(62, len(masks) - start), dtype=np.int64))
+        _v, part = np.unique(chunk, return_inverse=True)
+        _v, key_of = np.unique(key_of * (int(part.max()) + 1) + part.reshape(-1), return_inverse=True)
+        key_of = key_of.reshape(-1)
+    first = np.unique(key_of, return_index=True)[1] if n_options else np.zeros(0, np.int64)
+    keys = [tuple(masks[has[o]].tolist()) for o in first.tolist()]
+    return keys, key_of.reshape(-1).astype(np.int64)
 
 
 def _least(values: np.ndarray) -> float:
@@ -446,12 +536,13 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())
     fee = _set_fees(problem, suppliers)
     sets = np.arange(n_sets)
+    needs = _all_needs(problem)
     if threshold is not None:
-        parts_floor = min((float(b.min()) for b in lower_bounds(problem).values() if len(b)), default=math.inf)
+        parts_floor = min((float(b.min()) for b in lower_bounds(problem, needs).values() if len(b)), default=math.inf)
         sets = np.flatnonzero(fee + parts_floor <= threshold)
     if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
         return None
-    needs = {g: _needs(problem, g) for g in problem.groups}
+    links = {g: _Links.of(problem, g, classes=True) for g in pairs}
     users = _users_of(needs)
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
@@ -476,7 +567,7 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     for lo in range(0, len(sets), width):
         block = slice(lo, min(len(sets), lo + width))
         own = {g: _sum_rows(*pick[g], cost[:, block], len(grp)) + extra[g][:, None] for g, grp in problem.groups.items()}
-        for g, bound in _tree_bounds(problem, own, pairs).items():
+        for g, bound in _tree_bounds(problem, own, links).items():
             if len(bound):
                 through = bound + fee[block]
                 out[g] = np.minimum(out[g], through.min(axis=1))
@@ -520,8 +611,9 @@ def design_bounds(problem: Problem) -> dict[str, np.ndarray]:
     (order fees): the two bound different terms of the objective, so their
     sum bounds it.
     """
-    parts = lower_bounds(problem)
-    fees = fee_floors(problem)
+    needs = _all_needs(problem)
+    parts = lower_bounds(problem, needs)
+    fees = fee_floors(problem, needs)
     return {g: parts[g] + fees[g] for g in parts}
 
 

@@ -424,3 +424,64 @@ def test_the_first_design_comes_from_the_cheapest_supplier_sets(monkeypatch) -> 
     assert tried == [["S1"], ["S2"]]
     assert starts[-1] == 12.0  # the full solve starts from the design found
     assert sol.status == "optimal" and sol.total == pytest.approx(12.0)
+
+
+@settings(**SETTINGS)
+@given(st.integers(0, 12), st.lists(st.tuples(st.integers(0, 11), st.integers(0, 199)), max_size=120))
+def test_set_classes_group_rows_by_their_exact_member_sets(n_rows: int, pairs: list[tuple[int, int]]) -> None:
+    """Rows share a class exactly when their member sets (frozensets, by hand) are equal; members past 62 included."""
+    pairs = [(r, m) for r, m in pairs if r < n_rows]
+    rows = np.array([r for r, _m in pairs], dtype=np.int64)
+    members = np.array([m for _r, m in pairs], dtype=np.int64)
+    classes = prune._set_classes(rows, members, n_rows)
+    sets = [frozenset(m for r, m in pairs if r == i) for i in range(n_rows)]
+    assert len(classes) == n_rows
+    for i in range(n_rows):
+        for j in range(n_rows):
+            assert (classes[i] == classes[j]) == (sets[i] == sets[j])
+
+
+def test_set_classes_tell_apart_sets_that_differ_in_a_later_slice_of_62_by_hand() -> None:
+    # Rows 0 and 1 agree on members 0-61 and differ at 70; row 2 equals row 0.
+    rows = np.array([0, 0, 1, 1, 2, 2])
+    members = np.array([3, 70, 3, 71, 70, 3])
+    classes = prune._set_classes(rows, members, 4)
+    assert classes[0] == classes[2] and classes[0] != classes[1] and len(set(classes.tolist())) == 3
+
+
+@settings(**SETTINGS)
+@given(st.data(), st.integers(1, 9), st.integers(1, 6), st.integers(1, 3), st.booleans())
+def test_links_minima_match_a_loop_over_the_compat_lists(data, n_parent: int, n_kid: int, width: int, classes: bool) -> None:
+    """Least over children per parent and over parents per child, against plain loops (inf where none)."""
+    compat = [np.array(sorted(data.draw(st.sets(st.integers(0, n_parent - 1), max_size=n_parent))), dtype=np.int64)
+              for _ in range(n_kid)]
+    parent = Group("p", [f"p{i}" for i in range(n_parent)], [[] for _ in range(n_parent)])
+    child = Group("c", [f"c{i}" for i in range(n_kid)], [[] for _ in range(n_kid)], parent="p", compat=compat)
+    problem = Problem({"p": parent, "c": child}, [], {}, {"S": 0.0}, 1.0)
+    links = prune._Links.of(problem, "c", classes=classes)
+    kid_value = np.array(data.draw(st.lists(st.lists(st.integers(0, 9), min_size=width, max_size=width), min_size=n_kid, max_size=n_kid)), float)
+    parent_value = np.array(data.draw(st.lists(st.lists(st.integers(0, 9), min_size=width, max_size=width), min_size=n_parent, max_size=n_parent)), float)
+    down = links.min_over_children(kid_value)
+    up = links.min_over_parents(parent_value)
+    for p in range(n_parent):
+        suits = [k for k in range(n_kid) if p in compat[k].tolist()]
+        want = kid_value[suits].min(axis=0) if suits else np.full(width, np.inf)
+        assert np.array_equal(down[p], want)
+    for k in range(n_kid):
+        want = parent_value[compat[k]].min(axis=0) if len(compat[k]) else np.full(width, np.inf)
+        assert np.array_equal(up[k], want)
+
+
+@settings(**SETTINGS)
+@given(problems(), st.integers(0, 2**10 - 1))
+def test_seller_keys_are_each_options_sorted_seller_masks(problem: Problem, salt: int) -> None:
+    """The fee floors' per-option keys against the per-option Python they replace."""
+    import zlib
+
+    sellers = {line: (zlib.crc32(line.encode()) ^ salt) & 0x3FF for line in problem.line_offers}
+    for g, grp in problem.groups.items():
+        opt, ids, names, _units = prune._needs(problem, g)
+        keys, key_of = prune._seller_keys(len(grp), opt, ids, names, sellers)
+        assert len(set(keys)) == len(keys)
+        for o, usage in enumerate(grp.usage):
+            assert keys[key_of[o]] == tuple(sorted({sellers.get(line, 0) for line, _q, _r in usage}))
