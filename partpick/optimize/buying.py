@@ -8,6 +8,7 @@ to the caller.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Iterable
 from typing import TYPE_CHECKING
@@ -41,7 +42,13 @@ def cheapest_purchase(offers: list[Offer], need: int) -> float:
     :data:`EXACT_NEED_MAX` units it returns the lower bound ``need x`` the
     cheapest unit price instead. ``inf`` when the stock cannot cover the need.
     """
-    rows = usable(offers)
+    return _cheapest(tuple(usable(offers)), int(need))
+
+
+@functools.lru_cache(maxsize=1 << 16)
+def _cheapest(rows: tuple[tuple[str, int, float, int], ...], need: int) -> float:
+    """:func:`cheapest_purchase` of usable offer rows, remembered: the bounds and
+    the MILP's rows ask for the same purchase round after round."""
     if need <= 0:
         return 0.0
     if not rows:

@@ -31,6 +31,7 @@ the whole problem:
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
@@ -38,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.optimize.buying import cheapest_purchase, line_no_dearer, usable
-from partpick.optimize.milp import Coupling, Group, Problem
+from partpick.optimize.milp import Coupling, Group, Offer, Problem
 
 #: Largest number of options compared pairwise in one block of a group.
 BLOCK_PAIRS = 4_000_000
@@ -587,13 +588,18 @@ def _sum_rows(opt: np.ndarray, key: np.ndarray, cost: np.ndarray, n: int) -> np.
 
 def _over_sets(offers, suppliers: list[str], key: tuple) -> np.ndarray:
     """The price of one need for every supplier set (bit i: ``suppliers[i]``); see :func:`supplier_set_bounds`."""
-    units = key[1]
-    rows = usable(offers)
+    return _over_sets_of(tuple(usable(offers)), tuple(suppliers), len(key) == 3, key[1])
+
+
+@functools.lru_cache(maxsize=1 << 14)
+def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: float) -> np.ndarray:
+    """:func:`_over_sets` from usable offer rows, remembered across the threshold rounds (read-only)."""
+    offers = [Offer(s, low, p, st, 0) for s, low, p, st in rows]
     sellers = sorted({s for s, *_rest in rows if s in suppliers})
     table = np.full(1 << len(sellers), np.inf)
     for sub in range(1, len(table)):
         held = {s for j, s in enumerate(sellers) if (sub >> j) & 1}
-        if len(key) == 3:
+        if shared:
             table[sub] = units * min(p for s, _low, p, _st in rows if s in held)
         else:
             table[sub] = cheapest_purchase([o for o in offers if o.supplier in held], units)
@@ -601,7 +607,9 @@ def _over_sets(offers, suppliers: list[str], key: tuple) -> np.ndarray:
     index = np.zeros(len(sets), dtype=np.int64)
     for j, s in enumerate(sellers):
         index |= ((sets >> suppliers.index(s)) & 1) << j
-    return table[index]
+    out = table[index]
+    out.setflags(write=False)
+    return out
 
 
 def design_bounds(problem: Problem) -> dict[str, np.ndarray]:
