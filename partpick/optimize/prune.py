@@ -411,60 +411,62 @@ def fee_floors(problem: Problem, needs: dict | None = None) -> dict[str, np.ndar
     fee = _set_fees(problem, suppliers)
     sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
     needs = needs if needs is not None else _all_needs(problem)
-    # Per group: the distinct seller-mask sets of its options, and each option's one.
-    keys: dict[str, list[tuple[int, ...]]] = {}
+    # Per group: the distinct seller-mask sets of its options, each option's one,
+    # and which supplier sets can sell each of them.
     key_of: dict[str, np.ndarray] = {}
+    can: dict[str, np.ndarray] = {}
     for g, grp in problem.groups.items():
-        keys[g], key_of[g] = _seller_keys(len(grp), *needs[g][:3], sellers)
-    memo: dict[tuple[int, ...], np.ndarray] = {}
-
-    def can_sell(key: tuple[int, ...]) -> np.ndarray:
-        """Which supplier sets sell every line of an option with these seller masks."""
-        if key not in memo:
-            ok = np.ones(len(sets), dtype=bool)
-            for m in key:
-                ok &= (sets & m) != 0
-            memo[key] = ok
-        return memo[key]
-
-    some = {g: np.logical_or.reduce([can_sell(k) for k in ks]) if ks else np.zeros(len(sets), bool) for g, ks in keys.items()}
+        masks, bits, key_of[g] = _seller_bits(len(grp), *needs[g][:3], sellers)
+        can[g] = _can_sell(masks, bits, sets)
+    some = {g: c.any(axis=0) for g, c in can.items()}
     out = {}
     for g in problem.groups:
         others = np.ones(len(sets), dtype=bool)
         for h, ok in some.items():
             if h != g:
                 others &= ok
-        per_key = np.array([_least(fee[can_sell(k) & others]) for k in keys[g]])
+        per_key = np.where(can[g] & others, fee, np.inf).min(axis=1) if can[g].size else np.full(len(can[g]), np.inf)
         out[g] = per_key[key_of[g]] if len(per_key) else np.zeros(0)
     return out
 
 
-def _seller_keys(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[str], sellers: dict[str, int]) -> tuple[list[tuple[int, ...]], np.ndarray]:
-    """The distinct sets of seller masks of a group's options (sorted tuples), and each option's index among them.
+def _seller_bits(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[str],
+                 sellers: dict[str, int]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The seller masks a group's lines have, the distinct sets of them its options hold, and each option's set.
 
-    From :func:`_needs` rows: each option's lines give their seller masks; an
-    option with no line has the empty set. Options are told apart by a bit
-    row over the masks the group uses, numbered exactly 62 bits at a time, so
-    no Python runs per option.
+    From :func:`_needs` rows: ``(masks, bits, key_of)`` with ``bits[key, j]``
+    true when set ``key`` holds ``masks[j]``; an option with no line holds the
+    empty set. The sets are told apart exactly (:func:`_set_classes`), with
+    no Python per option.
     """
     line_mask = np.array([sellers.get(name, 0) for name in names], dtype=np.int64)
     masks, mask_i = np.unique(line_mask[ids], return_inverse=True) if len(ids) else (np.zeros(0, np.int64), np.zeros(0, np.int64))
-    has = np.zeros((n_options, len(masks)), dtype=bool)
-    has[opt, mask_i.reshape(-1)] = True
-    # Number the distinct bit rows 62 bits at a time (an exact code, no hashing).
-    key_of = np.zeros(n_options, dtype=np.int64)
-    for start in range(0, len(masks), 62):
-        chunk = has[:, start:start + 62].astype(np.int64) @ (np.int64(1) << np.arange(min(62, len(masks) - start), dtype=np.int64))
-        _v, part = np.unique(chunk, return_inverse=True)
-        _v, key_of = np.unique(key_of * (int(part.max()) + 1) + part.reshape(-1), return_inverse=True)
-        key_of = key_of.reshape(-1)
-    first = np.unique(key_of, return_index=True)[1] if n_options else np.zeros(0, np.int64)
-    keys = [tuple(masks[has[o]].tolist()) for o in first.tolist()]
-    return keys, key_of.reshape(-1).astype(np.int64)
+    mask_i = mask_i.reshape(-1)
+    key_of = _set_classes(opt, mask_i, n_options)
+    bits = np.zeros((int(key_of.max()) + 1 if n_options else 0, len(masks)), dtype=bool)
+    bits[key_of[opt], mask_i] = True
+    return masks, bits, key_of
 
 
-def _least(values: np.ndarray) -> float:
-    return float(values.min()) if len(values) else math.inf
+def _seller_keys(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[str], sellers: dict[str, int]) -> tuple[list[tuple[int, ...]], np.ndarray]:
+    """:func:`_seller_bits` as sorted tuples of masks, one per distinct set, and each option's index among them."""
+    masks, bits, key_of = _seller_bits(n_options, opt, ids, names, sellers)
+    return [tuple(masks[b].tolist()) for b in bits], key_of
+
+
+def _can_sell(masks: np.ndarray, bits: np.ndarray, sets: np.ndarray) -> np.ndarray:
+    """``[key, set]``: whether the supplier set (a bit mask) sells some supplier of every mask the key holds.
+
+    A key fails a set when one of its masks has no supplier in the set; the
+    failures are counted by a product of 0/1 matrices (exact in float32 for
+    the few thousand masks a group can have), rows in blocks.
+    """
+    lacks = ((sets[None, :] & masks[:, None]) == 0).astype(np.float32)  # [mask, set]
+    out = np.empty((len(bits), len(sets)), dtype=bool)
+    block = max(1, (1 << 22) // max(1, len(sets)))
+    for lo in range(0, len(bits), block):
+        out[lo:lo + block] = (bits[lo:lo + block].astype(np.float32) @ lacks) < 0.5
+    return out
 
 
 def _mask(offers, code: dict[str, int]) -> int:
