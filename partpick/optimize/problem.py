@@ -88,7 +88,7 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     order = {key: lines[key] for key in dict.fromkeys(key for u in usage for key, _q, _r in u)}
     lines.clear()
     lines.update(order)
-    groups["stage"] = Group("stage", list(k["key"]), usage)
+    groups["stage"] = Group("stage", k["key"].tolist(), usage)
     tables["stage"] = k
 
     # --- emitter resistors: value linked to the stage's Re
