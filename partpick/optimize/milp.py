@@ -480,32 +480,50 @@ def _infeasible(solver: str) -> Solution:
     return Solution("infeasible", {}, {}, [], 0.0, 0.0, [], solver)
 
 
+def set_classes(rows: np.ndarray, members: np.ndarray, n_rows: int) -> np.ndarray:
+    """A class per row such that rows share a class exactly when they hold the same set of members.
+
+    ``(rows[j], members[j])`` are the pairs (repeats allowed). The sets are
+    numbered 62 members at a time, each slice as the bits of an integer, so
+    the classes are exact (no hashing) and no Python runs per row.
+    """
+    code = np.zeros(n_rows, dtype=np.int64)
+    if not len(rows):
+        return code
+    order = np.argsort(members, kind="stable")
+    r, m = rows[order], members[order]
+    cuts = np.searchsorted(m, np.arange(0, int(m[-1]) + 63, 62))
+    for c in range(len(cuts) - 1):
+        lo, hi = cuts[c], cuts[c + 1]
+        if lo == hi:
+            continue
+        bits = np.zeros(n_rows, dtype=np.int64)
+        np.bitwise_or.at(bits, r[lo:hi], np.int64(1) << (m[lo:hi] - 62 * c))
+        part = np.unique(bits, return_inverse=True)[1].reshape(-1)
+        code = np.unique(code * (int(part.max()) + 1) + part, return_inverse=True)[1].reshape(-1)
+    return code
+
+
 def compat_classes(compat: list[np.ndarray], n_parent: int) -> tuple[np.ndarray, list[np.ndarray]]:
     """Parent options grouped by the set of child options that suit them.
 
     Returns ``(cls, members)``: ``cls[p]`` is the class of parent option ``p``
-    (a class holds the parents that suit exactly the same children) and
-    ``members[k]`` the children that suit class ``k``. Parents that suit no
-    child share one class with no members.
+    (a class holds the parents that suit exactly the same children; classes
+    are numbered in the order of their first parent) and ``members[k]`` the
+    children that suit class ``k``, ascending. Parents that suit no child
+    share one class with no members.
     """
     lengths = np.array([len(c) for c in compat], dtype=np.int64)
     parents = np.concatenate([np.asarray(c, dtype=np.int64) for c in compat]) if lengths.sum() else np.zeros(0, np.int64)
     kids = np.repeat(np.arange(len(compat), dtype=np.int64), lengths)
+    code = set_classes(parents, kids, n_parent)
+    first = np.unique(code, return_index=True)[1]  # the first parent of each class, by code
+    rank = np.empty(len(first), dtype=np.int64)
+    rank[np.argsort(first, kind="stable")] = np.arange(len(first))
     order = np.lexsort((kids, parents))
     parents, kids = parents[order], kids[order]
     starts = np.searchsorted(parents, np.arange(n_parent + 1))
-    index: dict[bytes, int] = {}
-    cls = np.empty(n_parent, dtype=np.int64)
-    sets: list[np.ndarray] = []
-    for p in range(n_parent):
-        row = kids[starts[p]:starts[p + 1]]
-        key = row.tobytes()
-        k = index.get(key)
-        if k is None:
-            k = index[key] = len(sets)
-            sets.append(row)
-        cls[p] = k
-    return cls, sets
+    return rank[code], [kids[starts[p]:starts[p + 1]] for p in np.sort(first).tolist()]
 
 
 def _link(m: pulp.LpProblem, name: str, big: list[pulp.LpVariable], small: list[pulp.LpVariable],

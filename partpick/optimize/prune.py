@@ -39,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.optimize.buying import cheapest_purchase, line_no_dearer, usable
-from partpick.optimize.milp import Coupling, Group, Offer, Problem
+from partpick.optimize.milp import Coupling, Group, Offer, Problem, set_classes
 
 #: Largest number of options compared pairwise in one block of a group.
 BLOCK_PAIRS = 4_000_000
@@ -255,30 +255,6 @@ def compat_pairs(grp: Group) -> tuple[np.ndarray, np.ndarray]:
     return parents, np.repeat(np.arange(len(grp)), lengths)
 
 
-def _set_classes(rows: np.ndarray, members: np.ndarray, n_rows: int) -> np.ndarray:
-    """A class per row such that rows share a class exactly when they hold the same set of members.
-
-    ``(rows[j], members[j])`` are the pairs (repeats allowed). The sets are
-    numbered 62 members at a time, each slice as the bits of an integer, so
-    the classes are exact (no hashing) and no Python runs per row.
-    """
-    code = np.zeros(n_rows, dtype=np.int64)
-    if not len(rows):
-        return code
-    order = np.argsort(members, kind="stable")
-    r, m = rows[order], members[order]
-    cuts = np.searchsorted(m, np.arange(0, int(m[-1]) + 63, 62))
-    for c in range(len(cuts) - 1):
-        lo, hi = cuts[c], cuts[c + 1]
-        if lo == hi:
-            continue
-        bits = np.zeros(n_rows, dtype=np.int64)
-        np.bitwise_or.at(bits, r[lo:hi], np.int64(1) << (m[lo:hi] - 62 * c))
-        part = np.unique(bits, return_inverse=True)[1].reshape(-1)
-        code = np.unique(code * (int(part.max()) + 1) + part, return_inverse=True)[1].reshape(-1)
-    return code
-
-
 @dataclass
 class _Links:
     """A child group's compatible pairs, sorted once for the bounds' repeated minima.
@@ -305,7 +281,7 @@ class _Links:
         parents, kids = compat_pairs(grp)
         n_parent = len(problem.groups[grp.parent])
         if classes:
-            parent_class = _set_classes(parents, kids, n_parent)
+            parent_class = set_classes(parents, kids, n_parent)
             n_classes = int(parent_class.max()) + 1 if n_parent else 0
             first = np.full(n_classes, -1, dtype=np.int64)
             first[parent_class[::-1]] = np.arange(n_parent - 1, -1, -1)  # the first parent of each class
@@ -436,13 +412,13 @@ def _seller_bits(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[s
 
     From :func:`_needs` rows: ``(masks, bits, key_of)`` with ``bits[key, j]``
     true when set ``key`` holds ``masks[j]``; an option with no line holds the
-    empty set. The sets are told apart exactly (:func:`_set_classes`), with
+    empty set. The sets are told apart exactly (:func:`milp.set_classes`), with
     no Python per option.
     """
     line_mask = np.array([sellers.get(name, 0) for name in names], dtype=np.int64)
     masks, mask_i = np.unique(line_mask[ids], return_inverse=True) if len(ids) else (np.zeros(0, np.int64), np.zeros(0, np.int64))
     mask_i = mask_i.reshape(-1)
-    key_of = _set_classes(opt, mask_i, n_options)
+    key_of = set_classes(opt, mask_i, n_options)
     bits = np.zeros((int(key_of.max()) + 1 if n_options else 0, len(masks)), dtype=bool)
     bits[key_of[opt], mask_i] = True
     return masks, bits, key_of

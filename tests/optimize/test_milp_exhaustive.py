@@ -745,6 +745,28 @@ def test_compat_classes_reconstruct_every_pair(n_parent: int, n_child: int, data
     assert len({s.tobytes() for s in sets}) == len(sets)
 
 
+def _classes_one_parent_at_a_time(compat: list[np.ndarray], n_parent: int) -> tuple[list[int], list[list[int]]]:
+    """Reference: each parent's sorted children as a key, classes numbered as first met."""
+    index: dict[tuple[int, ...], int] = {}
+    cls = []
+    for p in range(n_parent):
+        key = tuple(c for c in range(len(compat)) if p in set(compat[c].tolist()))
+        cls.append(index.setdefault(key, len(index)))
+    return cls, [list(k) for k in index]
+
+
+@settings(max_examples=80, deadline=None, derandomize=True)
+@given(st.integers(0, 12), st.integers(0, 70), st.data())
+def test_compat_classes_number_classes_as_a_loop_over_parents_would(n_parent: int, n_child: int, data) -> None:
+    """The same classes, numbering and members as one parent at a time (up to 70 children: past one 62-bit word)."""
+    compat = [np.array(sorted(data.draw(st.sets(st.integers(0, n_parent - 1)))) if n_parent else [], dtype=np.int64)
+              for _ in range(n_child)]
+    cls, sets = compat_classes(compat, n_parent)
+    want_cls, want_sets = _classes_one_parent_at_a_time(compat, n_parent)
+    assert cls.tolist() == want_cls
+    assert [s.tolist() for s in sets] == want_sets
+
+
 def test_aggregated_compat_on_many_parents_with_shared_children() -> None:
     # Hand-worked: 40 "stage" options in four blocks of ten that suit the same two
     # heatsinks each (so the classes hold ten parents); prices make stage 37 the

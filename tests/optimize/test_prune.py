@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 
 from partpick.optimize import prune
 from partpick.optimize.buying import cheapest_purchase, line_no_dearer
-from partpick.optimize.milp import Coupling, Group, Offer, Problem, ceil_units, check_choice, line_need, solve, tie_weights
+from partpick.optimize.milp import Coupling, Group, Offer, Problem, ceil_units, check_choice, line_need, set_classes, solve, tie_weights
 from optimize.test_milp_exhaustive import (
     SETTINGS,
     LinePricer,
@@ -433,7 +433,7 @@ def test_set_classes_group_rows_by_their_exact_member_sets(n_rows: int, pairs: l
     pairs = [(r, m) for r, m in pairs if r < n_rows]
     rows = np.array([r for r, _m in pairs], dtype=np.int64)
     members = np.array([m for _r, m in pairs], dtype=np.int64)
-    classes = prune._set_classes(rows, members, n_rows)
+    classes = set_classes(rows, members, n_rows)
     sets = [frozenset(m for r, m in pairs if r == i) for i in range(n_rows)]
     assert len(classes) == n_rows
     for i in range(n_rows):
@@ -445,7 +445,7 @@ def test_set_classes_tell_apart_sets_that_differ_in_a_later_slice_of_62_by_hand(
     # Rows 0 and 1 agree on members 0-61 and differ at 70; row 2 equals row 0.
     rows = np.array([0, 0, 1, 1, 2, 2])
     members = np.array([3, 70, 3, 71, 70, 3])
-    classes = prune._set_classes(rows, members, 4)
+    classes = set_classes(rows, members, 4)
     assert classes[0] == classes[2] and classes[0] != classes[1] and len(set(classes.tolist())) == 3
 
 
