@@ -116,15 +116,6 @@ def forced_only(problem: Problem) -> dict[str, np.ndarray]:
             for g, grp in problem.groups.items()}
 
 
-def _line_users(problem: Problem) -> dict[str, set[str]]:
-    users: dict[str, set[str]] = {}
-    for g, grp in problem.groups.items():
-        for usage in grp.usage:
-            for line, _q, _r in usage:
-                users.setdefault(line, set()).add(g)
-    return users
-
-
 def _units(problem: Problem, per_board: float) -> float:
     return round(per_board * problem.factor, 6)
 
@@ -187,7 +178,7 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
     :func:`_all_needs` of ``problem`` when the caller has it.
     """
     needs = needs if needs is not None else _all_needs(problem)
-    users = _users_of(needs)
+    users = _line_users(needs)
     memo: dict[tuple[str, int], float] = {}
     pmin = {line: min((p for _s, _low, p, _st in usable(offers)), default=math.inf)
             for line, offers in problem.line_offers.items()}
@@ -198,7 +189,7 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
         price = np.empty(len(distinct))
         for j, (i, q) in enumerate(distinct):
             line = names[i]
-            if users[line] == 1:
+            if len(users[line]) == 1:
                 key = (line, math.ceil(q))
                 if key not in memo:
                     memo[key] = cheapest_purchase(problem.line_offers.get(line, []), key[1])
@@ -217,13 +208,13 @@ def _distinct_needs(ids: np.ndarray, units: np.ndarray) -> tuple[list[tuple[int,
     return distinct, back.reshape(-1).astype(np.int64)
 
 
-def _users_of(needs: dict[str, tuple[np.ndarray, np.ndarray, list[str], np.ndarray]]) -> dict[str, int]:
-    """How many groups use each line, from :func:`_needs` of every group."""
-    count: dict[str, int] = {}
-    for _opt, ids, names, _units in needs.values():
+def _line_users(needs: dict[str, tuple[np.ndarray, np.ndarray, list[str], np.ndarray]]) -> dict[str, set[str]]:
+    """The groups that use each line, from :func:`_needs` of every group."""
+    users: dict[str, set[str]] = {}
+    for g, (_opt, ids, names, _units) in needs.items():
         for i in np.unique(ids).tolist():
-            count[names[i]] = count.get(names[i], 0) + 1
-    return count
+            users.setdefault(names[i], set()).add(g)
+    return users
 
 
 def _children(problem: Problem) -> dict[str, list[str]]:
@@ -522,7 +513,7 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
         return None
     links = {g: _Links.of(problem, g, classes=True) for g in pairs}
-    users = _users_of(needs)
+    users = _line_users(needs)
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
     pick: dict[str, tuple[np.ndarray, np.ndarray]] = {}  # per group: (option, key) of each of its needs
@@ -531,7 +522,7 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
         key_of = np.empty(len(distinct), dtype=np.int64)
         for j, (i, q) in enumerate(distinct):
             line = names[i]
-            key = (line, math.ceil(q)) if users[line] == 1 else (line, q, "shared")
+            key = (line, math.ceil(q)) if len(users[line]) == 1 else (line, q, "shared")
             if key not in keys:
                 keys[key] = len(figures)
                 figures.append(_over_sets(problem.line_offers.get(line, []), suppliers, key))
@@ -616,7 +607,7 @@ def dominated(problem: Problem, rank: dict[str, np.ndarray]) -> dict[str, np.nda
     in full, so the blocks only limit how much is found, never its exactness.
     Returns the kept options (indices, ascending) of each group.
     """
-    users = _line_users(problem)
+    users = _line_users(_all_needs(problem))
     kids = _children(problem)
     keep = {}
     for g, grp in problem.groups.items():
