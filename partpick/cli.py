@@ -12,6 +12,7 @@ from __future__ import annotations
 import argparse
 import math
 import os
+import signal
 import sys
 from pathlib import Path
 
@@ -111,6 +112,33 @@ def _number(low: float, strict: bool):
     return parse
 
 
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM, raised as an exception so that every cleanup runs (solver folders, partial files)."""
+
+
+def _on_sigterm(signum, frame) -> None:
+    _stop_children()
+    raise _Terminated()
+
+
+def _stop_children() -> None:
+    """Send SIGTERM to this process's children (a solver program still running); Linux, best effort.
+
+    A terminal's Ctrl-C reaches the whole process group, the solver
+    included; a SIGTERM sent to partpick alone does not.
+    """
+    for task in Path(f"/proc/{os.getpid()}/task").glob("*/children"):
+        try:
+            pids = [int(p) for p in task.read_text().split()]
+        except (OSError, ValueError):
+            continue
+        for pid in pids:
+            try:
+                os.kill(pid, signal.SIGTERM)
+            except OSError:
+                pass
+
+
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     if args.command is None:
@@ -119,6 +147,18 @@ def main(argv: list[str] | None = None) -> int:
     from partpick.report.console import make_console
 
     console = make_console(no_color=args.no_color, quiet=args.quiet)
+    try:
+        previous = signal.signal(signal.SIGTERM, _on_sigterm)
+    except ValueError:  # not the main thread: leave signals alone
+        previous = None
+    try:
+        return _run_command(args, console)
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _run_command(args: argparse.Namespace, console) -> int:
     try:
         return _dispatch(args, console)
     except InputError as exc:
@@ -130,6 +170,9 @@ def main(argv: list[str] | None = None) -> int:
     except SolverError as exc:
         console.error(str(exc))
         return 1
+    except _Terminated:
+        console.error("terminated; output files are written whole or not at all, none is left partial")
+        return 143
     except KeyboardInterrupt:
         console.error("interrupted; output files are written whole or not at all, none is left partial")
         return 130

@@ -143,8 +143,9 @@ def test_interrupted_design_run_exits_130_with_a_message_and_writes_nothing(caps
     assert list((tmp_path / "out").iterdir()) == []
 
 
-def test_ctrl_c_while_the_solver_runs_leaves_no_output_and_no_traceback(tmp_path):
-    """A real process and a real SIGINT to its process group, as a terminal's Ctrl-C sends."""
+def _design_in_a_process(tmp_path: Path, scratch: Path) -> tuple[subprocess.Popen, int, Path]:
+    """`partpick design` in a process of its own session with a solver that only waits;
+    returns the process, the solver's process id once it runs, and the output folder."""
     marker, out = tmp_path / "solver.pid", tmp_path / "out"
     out.mkdir()
     cbc = fake_cbc(tmp_path, slow(marker))
@@ -152,7 +153,7 @@ def test_ctrl_c_while_the_solver_runs_leaves_no_output_and_no_traceback(tmp_path
             "from partpick.cli import main; sys.exit(main(sys.argv[1:]))")
     args = ["--no-color", "design", str(MODULE), "--catalog", str(DEMO_CATALOG),
             "--json", str(out / "report.json"), "--bom", str(out / "order.csv")]
-    env = {k: v for k, v in os.environ.items() if k != "PARTPICK_DEBUG"}
+    env = {k: v for k, v in os.environ.items() if k != "PARTPICK_DEBUG"} | {"TMPDIR": str(scratch)}
     proc = subprocess.Popen([sys.executable, "-c", code, *args], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             text=True, start_new_session=True, env=env, cwd=ROOT)
     try:
@@ -160,17 +161,67 @@ def test_ctrl_c_while_the_solver_runs_leaves_no_output_and_no_traceback(tmp_path
         while not marker.exists() or not marker.read_text().strip():
             assert proc.poll() is None and time.monotonic() < deadline, proc.communicate()
             time.sleep(0.05)
+    except BaseException:
+        _kill_session(proc)
+        raise
+    return proc, int(marker.read_text()), out
+
+
+def _kill_session(proc: subprocess.Popen) -> None:
+    try:
+        os.killpg(proc.pid, signal.SIGKILL)  # the fake solver, should it outlive the run
+    except ProcessLookupError:
+        pass
+
+
+def test_ctrl_c_while_the_solver_runs_leaves_no_output_and_no_traceback(tmp_path):
+    """A real process and a real SIGINT to its process group, as a terminal's Ctrl-C sends."""
+    scratch = tmp_path / "tmp"
+    scratch.mkdir()
+    proc, _solver, out = _design_in_a_process(tmp_path, scratch)
+    try:
         os.killpg(proc.pid, signal.SIGINT)
         stdout, stderr = proc.communicate(timeout=60)
     finally:
-        try:
-            os.killpg(proc.pid, signal.SIGKILL)  # the fake solver, should it outlive the run
-        except ProcessLookupError:
-            pass
+        _kill_session(proc)
     assert proc.returncode == 130, stderr
     assert "interrupted" in stderr
     assert "Traceback" not in stderr + stdout
     assert list(out.iterdir()) == []
+    assert list(scratch.glob("partpick-solve-*")) == []
+
+
+def test_sigterm_while_the_solver_runs_stops_the_solver_and_leaves_nothing_behind(tmp_path):
+    """A real SIGTERM to partpick alone (as `kill PID` or a job runner sends): the solver program
+    is stopped with it, its work folder removed, no output written, exit 143 without a traceback."""
+    scratch = tmp_path / "tmp"
+    scratch.mkdir()
+    proc, solver, out = _design_in_a_process(tmp_path, scratch)
+    try:
+        assert any(scratch.glob("partpick-solve-*"))  # the solve's folder exists while it runs
+        os.kill(proc.pid, signal.SIGTERM)
+        stdout, stderr = proc.communicate(timeout=60)
+        gone = time.monotonic() + 10
+        while _alive(solver) and time.monotonic() < gone:
+            time.sleep(0.05)
+        solver_alive = _alive(solver)
+    finally:
+        _kill_session(proc)
+    assert proc.returncode == 143, stderr
+    assert "terminated" in stderr
+    assert "Traceback" not in stderr + stdout
+    assert list(out.iterdir()) == []
+    assert list(scratch.glob("partpick-solve-*")) == []
+    assert not solver_alive
+
+
+def _alive(pid: int) -> bool:
+    """Whether process ``pid`` still runs (a zombie waiting to be reaped counts as gone)."""
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except (OSError, IndexError):
+        return False
+    return state != "Z"
 
 
 # ----------------------------------------------------------------------------- solver faults
