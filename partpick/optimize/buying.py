@@ -45,7 +45,7 @@ def cheapest_purchase(offers: list[Offer], need: int) -> float:
     return _cheapest(tuple(usable(offers)), int(need))
 
 
-@functools.lru_cache(maxsize=1 << 16)
+@functools.lru_cache(maxsize=1 << 14)
 def _cheapest(rows: tuple[tuple[str, int, float, int], ...], need: int) -> float:
     """:func:`cheapest_purchase` of usable offer rows, remembered: the bounds and
     the MILP's rows ask for the same purchase round after round."""
