@@ -597,7 +597,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     power_w = fams["power_w"].to_numpy(float)
     series_groups = [(key, list(members)) for key, members in fams.groupby(["series", "value_min", "value_max"], sort=False, dropna=False).indices.items()]
     for s in small.itertuples(index=False):
-        dev = _ccs_device(s, spec)
+        dev = _ccs_device(s, spec, rail_max)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
         mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
         vbe_req = dev["vbe"](i_req)
@@ -687,11 +687,16 @@ def _too_many_feeds(mode: str, n_core: int, pool: Pool) -> str:
     )
 
 
-def _ccs_device(s, spec: Spec) -> dict:
-    """The worse of a current-source pair's two devices, figure by figure."""
+def _ccs_device(s, spec: Spec, rail_max: np.ndarray) -> dict:
+    """The worse of a current-source pair's two devices, figure by figure.
+
+    ``soa_2vs_a``: its SOA current limit at ``Vce = 2 Vs_max`` for each row's
+    ``rail_max`` (its worst point), computed once per distinct rail.
+    """
     pick = lambda name, f: f(getattr(s, name + "_n"), getattr(s, name + "_p"))  # noqa: E731
     curves = [(np.array(getattr(s, "soa_v" + x)), np.array(getattr(s, "soa_a" + x))) if len(getattr(s, "soa_v" + x)) else None for x in ("_n", "_p")]
     bp_v, bp_a = soa.pad_curves(curves)
+    vce, of_row = np.unique(2.0 * np.asarray(rail_max, float), return_inverse=True)
     tj_max = pick("tj_max_c", min)
     return dict(
         vbe=lambda i: np.maximum(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, i), swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, i)),
@@ -701,9 +706,9 @@ def _ccs_device(s, spec: Spec) -> dict:
         tj_limit_c=tj_max - spec.thermal.tj_derate_c, rth_jc_k_w=pick("rth_jc_k_w", max),
         rth_ja_k_w=max(_rth_ja(s.rth_ja_k_w_n, s.package), _rth_ja(s.rth_ja_k_w_p, s.package)),
         package=s.package,
-        soa=lambda vce: np.min(soa.soa_current_limit_a(np.asarray(vce, float)[None, :], bp_v, bp_a,
-                                                       np.array([s.ic_max_a_n, s.ic_max_a_p]), np.array([s.pd_max_w_n, s.pd_max_w_p]),
-                                                       np.array([s.vceo_v_n, s.vceo_v_p])), axis=0),
+        soa_2vs_a=np.min(soa.soa_current_limit_a(vce[None, :], bp_v, bp_a, np.array([s.ic_max_a_n, s.ic_max_a_p]),
+                                                 np.array([s.pd_max_w_n, s.pd_max_w_p]), np.array([s.vceo_v_n, s.vceo_v_p])),
+                         axis=0)[of_row],
     )
 
 
@@ -713,18 +718,10 @@ def ccs_pair_current_bounds_a(v_ref_v, r_e_ohm, *vbe_data: tuple[float, float]) 
     return np.minimum.reduce([b[0] for b in bounds]), np.maximum.reduce([b[1] for b in bounds])
 
 
-def _ccs_soa_util(dev: dict, rail_max: np.ndarray, i_a: np.ndarray) -> np.ndarray:
-    """Ic / I_soa,25C of a source transistor at ``Vce = 2 Vs_max`` (its worst point).
-
-    The SOA limit is computed once per distinct rail (rows share a few) and
-    kept in ``dev`` for the device's next call with the same rails.
-    """
-    if dev.get("soa_2vs_of") is not rail_max:
-        values, inverse = np.unique(2.0 * np.asarray(rail_max, float), return_inverse=True)
-        dev["soa_2vs"] = dev["soa"](values)[inverse]
-        dev["soa_2vs_of"] = rail_max
+def _ccs_soa_util(dev: dict, i_a: np.ndarray) -> np.ndarray:
+    """Ic / I_soa,25C of a source transistor at ``Vce = 2 Vs_max`` (its worst point), row by row."""
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(i_a > 0, i_a / np.maximum(dev["soa_2vs"], 1e-12), 0.0)
+        return np.where(i_a > 0, i_a / np.maximum(dev["soa_2vs_a"], 1e-12), 0.0)
 
 
 def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray, amb: float) -> np.ndarray:
@@ -734,7 +731,7 @@ def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray
     p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
     tj = swing.ccs_junction_temp_c(amb, p_t, dev["rth_ja_k_w"])
     derate = soa.derating_factor(dev["tj_max_c"], tj)
-    return (tj <= dev["tj_limit_c"]) & (_ccs_soa_util(dev, rail_max, i_a) <= derate)
+    return (tj <= dev["tj_limit_c"]) & (_ccs_soa_util(dev, i_a) <= derate)
 
 
 def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
@@ -745,7 +742,7 @@ def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rai
     the source transistor's own junction and SOA at its case temperature.
     """
     amb = spec.thermal.ambient_c
-    util = _ccs_soa_util(dev, rail_max, i_a)[rows]
+    util = _ccs_soa_util(dev, i_a)[rows]
     rail_max, i_a = rail_max[rows], i_a[rows]
     extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
     outputs = _stage_rth(spec, core, sink, extra, rows)
