@@ -42,12 +42,12 @@ def cheapest_purchase(offers: list[Offer], need: int) -> float:
     :data:`EXACT_NEED_MAX` units it returns the lower bound ``need x`` the
     cheapest unit price instead. ``inf`` when the stock cannot cover the need.
     """
-    return _cheapest(tuple(usable(offers)), int(need))
+    return cheapest_of_rows(tuple(usable(offers)), int(need))
 
 
 @functools.lru_cache(maxsize=1 << 14)
-def _cheapest(rows: tuple[tuple[str, int, float, int], ...], need: int) -> float:
-    """:func:`cheapest_purchase` of usable offer rows, remembered: the bounds and
+def cheapest_of_rows(rows: tuple[tuple[str, int, float, int], ...], need: int) -> float:
+    """:func:`cheapest_purchase` of :func:`usable` offer rows, remembered: the bounds and
     the MILP's rows ask for the same purchase round after round."""
     if need <= 0:
         return 0.0

@@ -38,8 +38,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partpick.optimize.buying import cheapest_purchase, line_no_dearer, usable
-from partpick.optimize.milp import Coupling, Group, Offer, Problem, set_classes
+from partpick.optimize.buying import cheapest_of_rows, cheapest_purchase, line_no_dearer, usable
+from partpick.optimize.milp import Coupling, Group, Problem, set_classes
 
 #: Largest number of options compared pairwise in one block of a group.
 BLOCK_PAIRS = 4_000_000
@@ -415,12 +415,6 @@ def _seller_bits(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[s
     return masks, bits, key_of
 
 
-def _seller_keys(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[str], sellers: dict[str, int]) -> tuple[list[tuple[int, ...]], np.ndarray]:
-    """:func:`_seller_bits` as sorted tuples of masks, one per distinct set, and each option's index among them."""
-    masks, bits, key_of = _seller_bits(n_options, opt, ids, names, sellers)
-    return [tuple(masks[b].tolist()) for b in bits], key_of
-
-
 def _can_sell(masks: np.ndarray, bits: np.ndarray, sets: np.ndarray) -> np.ndarray:
     """``[key, set]``: whether the supplier set (a bit mask) sells some supplier of every mask the key holds.
 
@@ -502,8 +496,8 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     if n > FEE_SUBSETS_MAX_SUPPLIERS:
         return None
     n_sets = 1 << n
-    pairs = {g: compat_pairs(grp) for g, grp in problem.groups.items() if grp.parent is not None}
-    cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(p[0]) for p in pairs.values())
+    children = [g for g, grp in problem.groups.items() if grp.parent is not None]
+    cells = sum(len(grp) for grp in problem.groups.values()) + sum(len(c) for g in children for c in problem.groups[g].compat)
     fee = _set_fees(problem, suppliers)
     sets = np.arange(n_sets)
     needs = _all_needs(problem)
@@ -512,7 +506,7 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
         sets = np.flatnonzero(fee + parts_floor <= threshold)
     if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
         return None
-    links = {g: _Links.of(problem, g, classes=True) for g in pairs}
+    links = {g: _Links.of(problem, g, classes=True) for g in children}
     users = _line_users(needs)
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
@@ -568,7 +562,6 @@ def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: 
     128 MiB with :data:`FEE_SUBSETS_MAX_SUPPLIERS`; the medium benchmark
     uses 646 of them.
     """
-    offers = [Offer(s, low, p, st, 0) for s, low, p, st in rows]
     sellers = sorted({s for s, *_rest in rows if s in suppliers})
     table = np.full(1 << len(sellers), np.inf)
     for sub in range(1, len(table)):
@@ -576,7 +569,7 @@ def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: 
         if shared:
             table[sub] = units * min(p for s, _low, p, _st in rows if s in held)
         else:
-            table[sub] = cheapest_purchase([o for o in offers if o.supplier in held], units)
+            table[sub] = cheapest_of_rows(tuple(r for r in rows if r[0] in held), units)
     sets = np.arange(1 << len(suppliers))
     index = np.zeros(len(sets), dtype=np.int64)
     for j, s in enumerate(sellers):

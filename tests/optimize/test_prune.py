@@ -474,14 +474,15 @@ def test_links_minima_match_a_loop_over_the_compat_lists(data, n_parent: int, n_
 
 @settings(**SETTINGS)
 @given(problems(), st.integers(0, 2**10 - 1))
-def test_seller_keys_are_each_options_sorted_seller_masks(problem: Problem, salt: int) -> None:
-    """The fee floors' per-option keys against the per-option Python they replace."""
+def test_seller_bits_hold_each_options_sorted_seller_masks(problem: Problem, salt: int) -> None:
+    """The fee floors' per-option seller-mask sets against the per-option Python they replace."""
     import zlib
 
     sellers = {line: (zlib.crc32(line.encode()) ^ salt) & 0x3FF for line in problem.line_offers}
     for g, grp in problem.groups.items():
         opt, ids, names, _units = prune._needs(problem, g)
-        keys, key_of = prune._seller_keys(len(grp), opt, ids, names, sellers)
+        masks, bits, key_of = prune._seller_bits(len(grp), opt, ids, names, sellers)
+        keys = [tuple(masks[b].tolist()) for b in bits]
         assert len(set(keys)) == len(keys)
         for o, usage in enumerate(grp.usage):
             assert keys[key_of[o]] == tuple(sorted({sellers.get(line, 0) for line, _q, _r in usage}))
