@@ -143,11 +143,12 @@ def test_interrupted_design_run_exits_130_with_a_message_and_writes_nothing(caps
     assert list((tmp_path / "out").iterdir()) == []
 
 
-def _design_in_a_process(tmp_path: Path, scratch: Path) -> tuple[subprocess.Popen, int, Path]:
-    """`partpick design` in a process of its own session with a solver that only waits;
-    returns the process, the solver's process id once it runs, and the output folder."""
-    marker, out = tmp_path / "solver.pid", tmp_path / "out"
+def _design_in_a_process(tmp_path: Path) -> tuple[subprocess.Popen, int, Path, Path]:
+    """`partpick design` in a process of its own session with a solver that only waits; returns the
+    process, the solver's process id once it runs, the output folder and the scratch folder (TMPDIR)."""
+    marker, out, scratch = tmp_path / "solver.pid", tmp_path / "out", tmp_path / "tmp"
     out.mkdir()
+    scratch.mkdir()
     cbc = fake_cbc(tmp_path, slow(marker))
     code = (f"import sys, pulp; pulp.PULP_CBC_CMD.pulp_cbc_path = {str(cbc)!r}; "
             "from partpick.cli import main; sys.exit(main(sys.argv[1:]))")
@@ -164,7 +165,17 @@ def _design_in_a_process(tmp_path: Path, scratch: Path) -> tuple[subprocess.Pope
     except BaseException:
         _kill_session(proc)
         raise
-    return proc, int(marker.read_text()), out
+    return proc, int(marker.read_text()), out, scratch
+
+
+def _assert_stopped_cleanly(proc: subprocess.Popen, stdout: str, stderr: str, code: int, word: str,
+                            out: Path, scratch: Path) -> None:
+    """Exit ``code`` with ``word`` in one message, no traceback, no output file, no solver scratch folder."""
+    assert proc.returncode == code, stderr
+    assert word in stderr
+    assert "Traceback" not in stderr + stdout
+    assert list(out.iterdir()) == []
+    assert list(scratch.glob("partpick-solve-*")) == []
 
 
 def _kill_session(proc: subprocess.Popen) -> None:
@@ -176,27 +187,19 @@ def _kill_session(proc: subprocess.Popen) -> None:
 
 def test_ctrl_c_while_the_solver_runs_leaves_no_output_and_no_traceback(tmp_path):
     """A real process and a real SIGINT to its process group, as a terminal's Ctrl-C sends."""
-    scratch = tmp_path / "tmp"
-    scratch.mkdir()
-    proc, _solver, out = _design_in_a_process(tmp_path, scratch)
+    proc, _solver, out, scratch = _design_in_a_process(tmp_path)
     try:
         os.killpg(proc.pid, signal.SIGINT)
         stdout, stderr = proc.communicate(timeout=60)
     finally:
         _kill_session(proc)
-    assert proc.returncode == 130, stderr
-    assert "interrupted" in stderr
-    assert "Traceback" not in stderr + stdout
-    assert list(out.iterdir()) == []
-    assert list(scratch.glob("partpick-solve-*")) == []
+    _assert_stopped_cleanly(proc, stdout, stderr, 130, "interrupted", out, scratch)
 
 
 def test_sigterm_while_the_solver_runs_stops_the_solver_and_leaves_nothing_behind(tmp_path):
     """A real SIGTERM to partpick alone (as `kill PID` or a job runner sends): the solver program
     is stopped with it, its work folder removed, no output written, exit 143 without a traceback."""
-    scratch = tmp_path / "tmp"
-    scratch.mkdir()
-    proc, solver, out = _design_in_a_process(tmp_path, scratch)
+    proc, solver, out, scratch = _design_in_a_process(tmp_path)
     try:
         assert any(scratch.glob("partpick-solve-*"))  # the solve's folder exists while it runs
         os.kill(proc.pid, signal.SIGTERM)
@@ -207,11 +210,7 @@ def test_sigterm_while_the_solver_runs_stops_the_solver_and_leaves_nothing_behin
         solver_alive = _alive(solver)
     finally:
         _kill_session(proc)
-    assert proc.returncode == 143, stderr
-    assert "terminated" in stderr
-    assert "Traceback" not in stderr + stdout
-    assert list(out.iterdir()) == []
-    assert list(scratch.glob("partpick-solve-*")) == []
+    _assert_stopped_cleanly(proc, stdout, stderr, 143, "terminated", out, scratch)
     assert not solver_alive
 
 
