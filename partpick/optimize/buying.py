@@ -89,3 +89,32 @@ def line_no_dearer(better: list[Offer], worse: list[Offer], need: int) -> bool:
     return True
 
 
+
+
+def useful_breaks(offers: list[Offer], need_max: int, extra: dict[str, float] | None = None) -> list[bool]:
+    """Which of a line's price breaks some optimal purchase can use, when no plan counts more than ``need_max`` units.
+
+    A break (smallest quantity m, MOQ included; unit cost c, its price plus
+    ``extra[supplier]``, the MILP's sub-cent supplier preference) is left out
+    when another break of the same supplier, with smallest quantity m2 and
+    unit cost c2, holds ``u = max(need_max, m2)`` units in stock and
+    ``u x c2 < m x c``: a purchase from the first costs at least ``m x c``,
+    while the second buys the same useful units (at most ``need_max``, topped
+    up to m2) for at most ``u x c2``. The supplier and its order fee stay the
+    same, so any plan using a break left out costs strictly more than one
+    using the other: no optimum changes. Above all this drops the high breaks
+    far past the need. Breaks that cannot be bought at all (smallest quantity
+    above the stock) are left out too.
+    """
+    extra = extra or {}
+    rows = [(o.supplier, max(o.min_qty, o.moq, 1), o.unit_price + extra.get(o.supplier, 0.0), o.stock) for o in offers]
+    # Per supplier, the least that any purchase of up to need_max useful units costs at most.
+    ceiling: dict[str, list[tuple[float, int]]] = {}
+    for j, (s, low, c, st) in enumerate(rows):
+        units = max(need_max, low)
+        if units <= st:
+            ceiling.setdefault(s, []).append((units * c, j))
+    keep = []
+    for i, (s, low, c, st) in enumerate(rows):
+        keep.append(low <= st and not any(j != i and most < low * c for most, j in ceiling.get(s, ())))
+    return keep

@@ -11,7 +11,9 @@ Buying, per line l and offer row r (a supplier's price break):
 ``q[l,r]`` integer units, ``z[l,r]`` binary, ``max(min_qty, moq) z <= q <=
 stock z``, at most one break per (line, supplier), ``sum_r q[l,r] >= need_l``,
 and ``y[s] >= z[l,r]`` for the supplier's fixed order fee. Buying up to a
-higher break falls out by itself, since q may exceed the need.
+higher break falls out by itself, since q may exceed the need. A break that
+another break of the same supplier beats on every useful quantity gets no
+variables (:func:`~partpick.optimize.buying.useful_breaks`).
 
 Objectives: ``cost`` = parts + fees; ``lines`` = fewest distinct lines, then
 cost (solved in two rounds). Ties are broken by a tiny weight on each option's
@@ -31,7 +33,7 @@ import numpy as np
 import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
-from partpick.optimize.buying import cheapest_purchase
+from partpick.optimize.buying import cheapest_purchase, useful_breaks
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
@@ -636,9 +638,12 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         covers = []
         first_buy = len(buy)
         by_supplier: dict[str, list[pulp.LpVariable]] = {}
+        # Breaks that some other break of the same supplier beats on every
+        # purchase (above all, high breaks far past the need) get no variables.
+        useful = useful_breaks(offers, need_max, supplier_tie)
         for r_i, off in enumerate(offers):
             low = max(off.min_qty, off.moq)
-            if low > off.stock:
+            if not useful[r_i]:
                 continue
             cap = min(off.stock, max(need_max, low))
             z = pulp.LpVariable(f"z_{l_i}_{r_i}", cat="Binary")
@@ -749,12 +754,42 @@ def _set_start(start: Solution, x, y, buy, extra, classes) -> None:
     used = set(start.suppliers_used)
     for s, v in y.items():
         v.setInitialValue(1 if s in used else 0)
-    bought = {(p.line, p.supplier, p.min_qty): p.qty for p in start.purchases}
+    bought = start_purchases(start.purchases, [(line, off, need_max) for (line, off, _q), (_z, _c, need_max) in zip(buy, extra)])
     for (line, off, q), (z, c, need_max) in zip(buy, extra):
         qty = bought.get((line, off.supplier, off.min_qty), 0)
         q.setInitialValue(qty)
         z.setInitialValue(1 if qty else 0)
         c.setInitialValue(min(qty, need_max))
+
+
+def start_purchases(purchases: list[Purchase], breaks: list[tuple[str, Offer, int]]) -> dict[tuple[str, str, int], int]:
+    """A start design's purchases on the breaks the model holds: ``(line, supplier, smallest quantity) -> units``.
+
+    ``breaks``: (line, offer, the line's largest need) of every break with
+    variables. A purchase on a break the model left out
+    (:func:`~partpick.optimize.buying.useful_breaks`) moves to the break of
+    the same line and supplier that buys its useful units (at most the
+    largest need) for the least; :func:`useful_breaks` keeps such a break
+    costing no more, so the start stays a design, no dearer.
+    """
+    held: dict[tuple[str, str], list[tuple[Offer, int]]] = {}
+    for line, off, need_max in breaks:
+        held.setdefault((line, off.supplier), []).append((off, need_max))
+    out: dict[tuple[str, str, int], int] = {}
+    for p in purchases:
+        options = held.get((p.line, p.supplier), [])
+        if any(off.min_qty == p.min_qty for off, _n in options):
+            out[(p.line, p.supplier, p.min_qty)] = p.qty
+            continue
+        fits = []
+        for off, need_max in options:
+            units = max(min(p.qty, need_max), off.min_qty, off.moq)
+            if units <= off.stock:
+                fits.append((units * off.unit_price, off.min_qty, units))
+        if fits:
+            _cost, low, units = min(fits)
+            out[(p.line, p.supplier, low)] = units
+    return out
 
 
 def check_choice(problem: Problem, choice: dict[str, int]) -> list[str]:

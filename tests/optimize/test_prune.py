@@ -18,8 +18,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from partpick.optimize import prune
-from partpick.optimize.buying import cheapest_purchase, line_no_dearer
-from partpick.optimize.milp import Coupling, Group, Offer, Problem, ceil_units, check_choice, line_need, set_classes, solve, tie_weights
+from partpick.optimize.buying import cheapest_purchase, line_no_dearer, useful_breaks
+from partpick.optimize.milp import (
+    Coupling, Group, Offer, Problem, Purchase, ceil_units, check_choice, line_need, set_classes, solve, start_purchases, tie_weights,
+)
 from optimize.test_milp_exhaustive import (
     SETTINGS,
     LinePricer,
@@ -213,6 +215,54 @@ def test_cheapest_purchase_matches_an_independent_pricer(rows, need: int) -> Non
     offers = [Offer(s, q, c / 100.0, stock, moq) for s, q, c, stock, moq in rows]
     expected = cheapest_line_cost(offers, need, frozenset({"S0", "S1"}))
     assert cheapest_purchase(offers, need) == pytest.approx(expected, abs=1e-9)
+
+
+@settings(**SETTINGS)
+@given(
+    st.lists(st.tuples(st.sampled_from(["S0", "S1", "S2"]), st.sampled_from([1, 2, 5, 10, 25, 100]), st.integers(5, 300),
+                       st.sampled_from([0, 3, 8, 40, 1000]), st.sampled_from([1, 5])), min_size=1, max_size=7),
+    st.integers(1, 30),
+)
+def test_breaks_left_out_change_no_cheapest_purchase(rows, need_max: int) -> None:
+    """For every need up to the largest and every set of suppliers, the kept breaks buy as cheaply as all of them
+    (checked against the independent pricer, which tries every quantity of every break)."""
+    offers = [Offer(s, q, c / 100.0, stock, moq) for s, q, c, stock, moq in rows]
+    kept = [o for o, k in zip(offers, useful_breaks(offers, need_max)) if k]
+    for allowed in (frozenset(c) for r in range(4) for c in itertools.combinations(["S0", "S1", "S2"], r)):
+        for need in range(1, need_max + 1):
+            assert cheapest_line_cost(kept, need, allowed) == pytest.approx(cheapest_line_cost(offers, need, allowed), abs=1e-9)
+
+
+def test_useful_breaks_by_hand() -> None:
+    # Hand-worked, need of at most 6 units: at S0, 6 x 1.00 = 6.00.
+    offers = [
+        Offer("S0", 1, 1.00, 500, 1),
+        Offer("S0", 10, 0.50, 500, 1),  # 10 x 0.50 = 5.00 < 6.00: buying up to the break pays, kept
+        Offer("S0", 100, 0.40, 500, 1),  # at least 40.00 > 6 x 1.00 at the 1-unit break: left out
+        Offer("S0", 25, 0.30, 20, 1),  # 25 above its stock of 20: cannot be bought, left out
+        Offer("S1", 100, 0.05, 500, 1),  # 5.00: another supplier's break is never compared, kept
+        Offer("S1", 200, 0.03, 500, 1),  # 6.00 > 5.00 at S1's 100 break, both above the need: left out
+        Offer("S2", 1, 0.90, 4, 1),  # stock 4 below the need: cannot stand in for S2's break below
+        Offer("S2", 10, 0.60, 500, 1),  # 6.00 > 6 x 0.90, but only 4 units are held at 0.90: kept
+        Offer("S3", 1, 1.00, 500, 1),  # even one unit costs more than S3's whole 10-unit break: left out
+        Offer("S3", 10, 0.05, 500, 1),  # 0.50 covers any need up to 6: kept
+    ]
+    assert useful_breaks(offers, 6) == [True, True, False, False, True, False, True, True, False, True]
+    # The sub-cent supplier preference counts: 10 x (0.50 + 0.01) = 5.10 against 6 x (0.85 + 0.01) = 5.16.
+    close = [Offer("S0", 1, 0.85, 500, 1), Offer("S0", 10, 0.50, 500, 1)]
+    assert useful_breaks(close, 6, {"S0": 0.01}) == [True, True]
+    assert useful_breaks(close, 5, {"S0": 0.01}) == [True, False]  # 5 x 0.86 = 4.30 < 5.10
+
+
+def test_a_start_on_a_break_left_out_moves_to_a_kept_one() -> None:
+    # The model holds S0's 1- and 10-unit breaks of L (largest need 6); a start bought
+    # 100 units at S0's 100 break: the cheapest kept way to its 6 useful units is
+    # 10 x 0.50 = 5.00 (6 x 1.00 = 6.00 at the 1-unit break). Purchases on held breaks stay.
+    held = [("L", Offer("S0", 1, 1.00, 500, 1), 6), ("L", Offer("S0", 10, 0.50, 500, 1), 6), ("M", Offer("S1", 1, 2.0, 50, 1), 3)]
+    start = [Purchase("L", "S0", 100, 0.40, 100), Purchase("M", "S1", 1, 2.0, 3)]
+    assert start_purchases(start, held) == {("L", "S0", 10): 10, ("M", "S1", 1): 3}
+    # Only the 1-unit break held: the start buys its 6 useful units there.
+    assert start_purchases(start[:1], held[:1]) == {("L", "S0", 1): 6}
 
 
 def _two_option_problem(offers_b: list[Offer], coef_b: float) -> Problem:
