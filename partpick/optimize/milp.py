@@ -24,6 +24,7 @@ solver's search path.
 from __future__ import annotations
 
 import math
+import os
 import shutil
 import tempfile
 import time
@@ -165,12 +166,18 @@ def _solver(name: str, time_limit: float | None, warm: bool = False):
     raise UsageError(f"unknown solver '{name}' (cbc or highs)")
 
 
-def _run(m: pulp.LpProblem, sol, name: str) -> int:
+def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None = None) -> int:
     """Solve ``m``; a missing, broken or killed solver program is a :class:`SolverError`.
 
     The solver's model, start and answer files go to a folder of this solve
     alone, removed afterwards whatever happened (PuLP leaves them behind
     when the solver program fails or the run is interrupted).
+
+    ``first``: binaries CBC branches on before any other (its priorities
+    file; HiGHS has no such input through PuLP). The order fees are all of
+    the gap between the relaxation and the optimum on the medium benchmark:
+    with the supplier binaries fixed the relaxation lies within 0.1 % of it,
+    so deciding them first closes the search soonest.
     """
     other = "highs" if name == "cbc" else "cbc"
     if not sol.available():
@@ -178,7 +185,10 @@ def _run(m: pulp.LpProblem, sol, name: str) -> int:
         raise SolverError(f"the {name} solver program is missing or cannot be run ({where}); use --solver {other}")
     folder = tempfile.mkdtemp(prefix="partpick-solve-")
     sol.tmpDir = folder
+    options = sol.options
     try:
+        if first and name == "cbc":
+            sol.options = options + [f"priorityIn {_priorities(m, first, folder)}"]
         return m.solve(sol)
     except pulp.PulpSolverError:
         raise SolverError(
@@ -186,7 +196,22 @@ def _run(m: pulp.LpProblem, sol, name: str) -> int:
             f"run again or use --solver {other}"
         ) from None
     finally:
+        sol.options = options
         shutil.rmtree(folder, ignore_errors=True)
+
+
+def _priorities(m: pulp.LpProblem, first: list[pulp.LpVariable], folder: str) -> str:
+    """CBC's priorities file: ``first`` at priority 1 (every other column keeps CBC's default, 1000).
+
+    Columns are named as PuLP names them in the model file it writes
+    (``normalisedNames``: X0000000, X0000001, ... in name order).
+    """
+    names = m.normalisedNames()[1]
+    path = os.path.join(folder, "priorities.csv")
+    with open(path, "w", encoding="ascii") as f:
+        f.write("name,priority\n")
+        f.writelines(f"{names[v.name]},1\n" for v in first if v.name in names)
+    return path
 
 
 def _found(m: pulp.LpProblem, time_limit: float | None) -> bool:
@@ -720,13 +745,13 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     proven = True
     for name, goal in goals:
         m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
-        _run(m, sol, solver)
+        _run(m, sol, solver, first=list(y.values()))
         if not _found(m, time_limit):
             return _infeasible(solver)
         proven = proven and m.sol_status == pulp.LpSolutionOptimal
         m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
-    _run(m, sol, solver)
+    _run(m, sol, solver, first=list(y.values()))
     if not _found(m, time_limit):
         return _infeasible(solver)
     proven = proven and m.sol_status == pulp.LpSolutionOptimal

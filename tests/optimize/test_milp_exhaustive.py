@@ -28,6 +28,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
+import pulp
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -567,6 +568,38 @@ def test_buys_up_to_a_price_break(break_price: float, qty: int, total: float) ->
         sol = solve(p, solver)
         assert sol.total == pytest.approx(total, abs=COST_TOL)
         assert [pu.qty for pu in sol.purchases] == [qty]
+
+
+def test_cbc_priorities_name_the_supplier_columns_as_the_model_file_does(tmp_path) -> None:
+    # PuLP renames columns X0000000... in the model file it writes; the priorities
+    # file must use those names for the order-fee binaries, or CBC branches on others.
+    m = pulp.LpProblem("p", pulp.LpMinimize)
+    a, b = pulp.LpVariable("x_g_0", cat="Binary"), pulp.LpVariable("q_0_0", lowBound=0)
+    ys = [pulp.LpVariable(f"y_{k}", cat="Binary") for k in range(3)]
+    m += 2 * ys[0] + 3 * ys[1] + 4 * ys[2] + a + b  # the supplier columns first: name order differs
+    m += a + ys[0] + ys[1] + ys[2] >= 1
+    path = milp._priorities(m, ys, str(tmp_path))
+    _vs, renamed, _c, _o = m.writeMPS(str(tmp_path / "model.mps"), rename=1)
+    rows = open(path, encoding="ascii").read().splitlines()
+    assert rows == ["name,priority"] + [f"{renamed[y.name]},1" for y in ys]
+    assert {renamed[y.name] for y in ys} == {"X0000002", "X0000003", "X0000004"}  # after q_0_0 and x_g_0
+
+
+def test_cbc_branches_on_the_supplier_binaries_first(monkeypatch) -> None:
+    # Hand-worked: need 8 units; S1 sells at 1.00 (fee 5), S2 at 1.20 (fee 1):
+    # 8 + 5 = 13.00 against 9.60 + 1 = 10.60, so S2.
+    p = _one_line_problem(8.0, [Offer("S1", 1, 1.00, 100, 1), Offer("S2", 1, 1.20, 100, 1)], {"S1": 5.0, "S2": 1.0})
+    given: list[list[str]] = []
+    real = milp._priorities
+
+    def spy(m, first, folder):
+        given.append(sorted(v.name for v in first))
+        return real(m, first, folder)
+
+    monkeypatch.setattr(milp, "_priorities", spy)
+    sol = solve(p, "cbc", prune=False)
+    assert sol.total == pytest.approx(10.60, abs=COST_TOL) and sol.suppliers_used == ["S2"]
+    assert given == [["y_0", "y_1"]]
 
 
 def test_one_price_break_per_supplier() -> None:
