@@ -176,8 +176,8 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
     ``first``: binaries CBC branches on before any other (its priorities
     file; HiGHS has no such input through PuLP). The order fees are all of
     the gap between the relaxation and the optimum on the medium benchmark:
-    with the supplier binaries fixed the relaxation lies within 0.1 % of it,
-    so deciding them first closes the search soonest.
+    with only the supplier binaries kept whole, the bound lies within 0.1 %
+    of the optimum, so deciding them first closes the search soonest.
     """
     other = "highs" if name == "cbc" else "cbc"
     if not sol.available():
