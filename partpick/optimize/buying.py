@@ -89,8 +89,6 @@ def line_no_dearer(better: list[Offer], worse: list[Offer], need: int) -> bool:
     return True
 
 
-
-
 def useful_breaks(offers: list[Offer], need_max: int, extra: dict[str, float] | None = None) -> list[bool]:
     """Which of a line's price breaks some optimal purchase can use, when no plan counts more than ``need_max`` units.
 
