@@ -704,7 +704,7 @@ def _ccs_device(s, spec: Spec, rail_max: np.ndarray) -> dict:
         hfe=lambda i: np.minimum(swing.hfe_at(s.hfe_min_n, s.hfe_at_a_n, i), swing.hfe_at(s.hfe_min_p, s.hfe_at_a_p, i)),
         vceo_v=pick("vceo_v", min), ic_max_a=pick("ic_max_a", min), tj_max_c=tj_max,
         tj_limit_c=tj_max - spec.thermal.tj_derate_c, rth_jc_k_w=pick("rth_jc_k_w", max),
-        rth_ja_k_w=max(_rth_ja(s.rth_ja_k_w_n, s.package), _rth_ja(s.rth_ja_k_w_p, s.package)),
+        rth_ja_k_w=ccs_rth_ja_k_w(s.rth_ja_k_w_n, s.rth_ja_k_w_p, s.package),
         package=s.package,
         soa_2vs_a=np.min(soa.soa_current_limit_a(vce[None, :], bp_v, bp_a, np.array([s.ic_max_a_n, s.ic_max_a_p]),
                                                  np.array([s.pd_max_w_n, s.pd_max_w_p]), np.array([s.vceo_v_n, s.vceo_v_p])),
@@ -813,6 +813,12 @@ def describe_rejection(r: dict, ex: _Explainer) -> str:
     if by.startswith("bias feed"):
         return f"{by}: {_feed_note(r, ex)}"
     return by
+
+
+def ccs_rth_ja_k_w(rth_ja_n: float | None, rth_ja_p: float | None, package: str) -> float:
+    """Free-air Rth_ja of a current-source pair: the larger of its two devices' (conservative reading, see
+    :func:`_ccs_variants`), each from the catalogue or, when blank, the package's default [K/W]."""
+    return max(_rth_ja(rth_ja_n, package), _rth_ja(rth_ja_p, package))
 
 
 def _rth_ja(value: float, package: str) -> float:

@@ -6,12 +6,11 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 
 from partpick.catalog import Catalog
 from partpick.evaluate.context import Pool, Targets, make_pool
 from partpick.evaluate.selection import SelectionCheck, check_selection
-from partpick.evaluate.stage import StageTable, evaluate_stage
+from partpick.evaluate.stage import StageTable, ccs_rth_ja_k_w, evaluate_stage
 from partpick.optimize.milp import Solution, solve
 from partpick.optimize.problem import Assembly, assemble
 from partpick.spec import Spec
@@ -142,11 +141,13 @@ def check_chosen(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, as
     ccs = None
     if k["feed"] == "current_source":
         ref = pool.diodes.iloc[int(k["ref_i"])]
+        src_n, src_p = tr.iloc[int(k["ccs_n_i"])].to_dict(), tr.iloc[int(k["ccs_p_i"])].to_dict()
         ccs = dict(
-            transistors=[tr.iloc[int(k["ccs_n_i"])].to_dict(), tr.iloc[int(k["ccs_p_i"])].to_dict()],
+            transistors=[src_n, src_p],
             vref_v=float(ref["vf_v"]) * int(k["ref_per_source"]),
             ref_if_max_a=float(ref["if_max_a"]),
-            rth_ja_k_w=_ccs_rth_ja(tr.iloc[int(k["ccs_n_i"])], tr.iloc[int(k["ccs_p_i"])]),
+            # A complementary pair shares one package.
+            rth_ja_k_w=ccs_rth_ja_k_w(src_n["rth_ja_k_w"], src_p["rth_ja_k_w"], src_n["package"]),
             mount=str(k["ccs_mount"]),
         )
     return check_selection(
@@ -174,12 +175,6 @@ def usable_sources(result: DesignResult) -> set[str]:
     """Every mpn or family that some option of the assembled problem could use."""
     groups = result.assembly.problem.groups
     return {src for g in groups for o in range(len(groups[g])) for src, _q, _r in option_sources(result, g, o)}
-
-
-def _ccs_rth_ja(a: pd.Series, b: pd.Series) -> float:
-    from partpick.evaluate.stage import _rth_ja
-
-    return max(_rth_ja(a["rth_ja_k_w"], a["package"]), _rth_ja(b["rth_ja_k_w"], b["package"]))
 
 
 def bom_lines(result: DesignResult) -> list[dict]:
