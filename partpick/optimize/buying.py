@@ -23,11 +23,16 @@ if TYPE_CHECKING:  # milp imports this module
 EXACT_NEED_MAX = 500
 
 
+def smallest_qty(off: Offer) -> int:
+    """The fewest units one purchase on a price break can be: its quantity or the MOQ, whichever is larger."""
+    return max(off.min_qty, off.moq, 1)
+
+
 def usable(offers: Iterable[Offer]) -> list[tuple[str, int, float, int]]:
     """(supplier, smallest quantity, unit price, stock) of the offers that can be bought at all."""
     out = []
     for off in offers:
-        low = max(off.min_qty, off.moq, 1)
+        low = smallest_qty(off)
         if low <= off.stock:
             out.append((off.supplier, low, off.unit_price, off.stock))
     return out
@@ -105,7 +110,7 @@ def useful_breaks(offers: list[Offer], need_max: int, extra: dict[str, float] | 
     above the stock) are left out too.
     """
     extra = extra or {}
-    rows = [(o.supplier, max(o.min_qty, o.moq, 1), o.unit_price + extra.get(o.supplier, 0.0), o.stock) for o in offers]
+    rows = [(o.supplier, smallest_qty(o), o.unit_price + extra.get(o.supplier, 0.0), o.stock) for o in offers]
     # Per supplier, the least that any purchase of up to need_max useful units costs at most.
     ceiling: dict[str, list[tuple[float, int]]] = {}
     for j, (s, low, c, st) in enumerate(rows):

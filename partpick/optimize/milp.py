@@ -34,7 +34,7 @@ import numpy as np
 import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
-from partpick.optimize.buying import cheapest_purchase, useful_breaks
+from partpick.optimize.buying import cheapest_purchase, smallest_qty, useful_breaks
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
@@ -667,7 +667,7 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         # purchase (above all, high breaks far past the need) get no variables.
         useful = useful_breaks(offers, need_max, supplier_tie)
         for r_i, off in enumerate(offers):
-            low = max(off.min_qty, off.moq)
+            low = smallest_qty(off)
             if not useful[r_i]:
                 continue
             cap = min(off.stock, max(need_max, low))
@@ -743,15 +743,16 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
                 m += u[line] - v >= 0
         goals.append(("lines", pulp.lpSum(u.values())))
     proven = True
+    fees_first = list(y.values())
     for name, goal in goals:
         m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
-        _run(m, sol, solver, first=list(y.values()))
+        _run(m, sol, solver, first=fees_first)
         if not _found(m, time_limit):
             return _infeasible(solver)
         proven = proven and m.sol_status == pulp.LpSolutionOptimal
         m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
-    _run(m, sol, solver, first=list(y.values()))
+    _run(m, sol, solver, first=fees_first)
     if not _found(m, time_limit):
         return _infeasible(solver)
     proven = proven and m.sol_status == pulp.LpSolutionOptimal
@@ -808,7 +809,7 @@ def start_purchases(purchases: list[Purchase], breaks: list[tuple[str, Offer, in
             continue
         fits = []
         for off, need_max in options:
-            units = max(min(p.qty, need_max), off.min_qty, off.moq)
+            units = max(min(p.qty, need_max), smallest_qty(off))
             if units <= off.stock:
                 fits.append((units * off.unit_price, off.min_qty, units))
         if fits:

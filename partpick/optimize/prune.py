@@ -501,12 +501,13 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     fee = _set_fees(problem, suppliers)
     sets = np.arange(n_sets)
     needs = _all_needs(problem)
+    links = {g: _Links.of(problem, g, classes=True) for g in children}
     if threshold is not None:
-        parts_floor = min((float(b.min()) for b in lower_bounds(problem, needs).values() if len(b)), default=math.inf)
+        parts = _tree_bounds(problem, option_costs(problem, needs), links)  # lower_bounds, on the same links
+        parts_floor = min((float(b.min()) for b in parts.values() if len(b)), default=math.inf)
         sets = np.flatnonzero(fee + parts_floor <= threshold)
     if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
         return None
-    links = {g: _Links.of(problem, g, classes=True) for g in children}
     users = _line_users(needs)
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
