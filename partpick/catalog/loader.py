@@ -10,16 +10,17 @@ from __future__ import annotations
 
 import codecs
 import csv
+import functools
 import hashlib
 import math
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
-from typing import BinaryIO
+from typing import Annotated, Any, BinaryIO
 
 import pandas as pd
-from pydantic import ValidationError
+from pydantic import TypeAdapter, ValidationError
 
 from partpick.catalog.rows import FILES, Row
 from partpick.errors import InputError, Problem
@@ -188,15 +189,22 @@ def _parse(
     if problems:
         return [], problems
     rows: list[tuple] = []
+    cells_of = _CellReader(header, model)
     for line, cells in records:
-        problems.extend(_row(label, line, header, cells, model, rows))
+        problems.extend(_row(label, line, header, cells, model, rows, cells_of))
     return rows, problems
 
 
 def _row(
-    label: str, line: int, header: list[str], cells: list[str] | str, model: type[Row], rows: list[tuple]
+    label: str, line: int, header: list[str], cells: list[str] | str, model: type[Row], rows: list[tuple],
+    cells_of: _CellReader | None = None,
 ) -> list[Problem]:
-    """Validate one record; a valid row is appended to ``rows`` (line, then its fields), else its problems are returned."""
+    """Validate one record; a valid row is appended to ``rows`` (line, then its fields), else its problems are returned.
+
+    ``cells_of`` (a :class:`_CellReader` of this file) reads a record whose
+    every cell is valid; any other record goes through ``model`` whole, which
+    names each of its problems.
+    """
     if isinstance(cells, str):
         return [Problem(label, line, "", cells)]
     if len(cells) != len(header):
@@ -204,12 +212,73 @@ def _row(
     long_cells = [h for h, c in zip(header, cells) if len(c) > MAX_CELL_CHARS]
     if long_cells:
         return [Problem(label, line, h, f"cell longer than {MAX_CELL_CHARS} characters") for h in long_cells]
+    values = cells_of.values(cells) if cells_of is not None else None
+    if values is not None:
+        rows.append((line, *values))
+        return []
     record = dict(zip(header, cells))
     try:
         rows.append((line, *model.model_validate(record).model_dump().values()))
     except ValidationError as exc:
         return _validation_problems(label, line, record, exc, model)
     return []
+
+
+_UNSEEN = object()
+_INVALID = object()
+
+
+class _CellReader:
+    """One file's cells read column by column, each distinct cell of a column validated once.
+
+    A row model has no rule that ties two columns (every check is one
+    field's own validators, see :mod:`partpick.catalog.rows`), so a record
+    whose every cell passes its field's validators alone is the record the
+    model accepts, with the same values; a column absent from the header
+    takes the field's default, as in the model. A model that gains a rule
+    over several columns (a ``model_validator``) is read whole, row by row. Catalogue columns repeat
+    their cells (suppliers, quantities, prices, packages), so most cells are
+    a dictionary lookup instead of a validation.
+    """
+
+    def __init__(self, header: list[str], model: type[Row]):
+        at = {name: i for i, name in enumerate(header)}
+        self.columns: list[tuple[int, Any, TypeAdapter, dict[str, Any]]] = []
+        # A rule over the whole record (a model validator) needs the model: then every record goes through it.
+        self.complete = not model.__pydantic_decorators__.model_validators
+        for name, info in model.model_fields.items():
+            if name not in at and info.is_required():
+                self.complete = False
+            self.columns.append((at.get(name, -1), info.get_default(), _field_adapter(model, name), {}))
+
+    def values(self, cells: list[str]) -> tuple | None:
+        """The row's field values in the model's order, or None when some cell is not valid."""
+        if not self.complete:
+            return None
+        out = []
+        for pos, default, adapter, seen in self.columns:
+            if pos < 0:
+                out.append(default)
+                continue
+            cell = cells[pos]
+            value = seen.get(cell, _UNSEEN)
+            if value is _UNSEEN:
+                try:
+                    value = adapter.validate_python(cell)
+                except ValidationError:
+                    value = _INVALID
+                seen[cell] = value
+            if value is _INVALID:
+                return None
+            out.append(value)
+        return tuple(out)
+
+
+@functools.lru_cache(maxsize=None)
+def _field_adapter(model: type[Row], name: str) -> TypeAdapter:
+    """The validators of one field of ``model`` on their own."""
+    info = model.model_fields[name]
+    return TypeAdapter(Annotated[(info.annotation, *info.metadata)])
 
 
 def _text_lines(fh: BinaryIO) -> Iterator[tuple[int, str]]:
@@ -338,7 +407,7 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
     first_seen: dict[str, str] = {}
     for name in (*PART_FILES, "passives.csv"):
         key = "family" if name == "passives.csv" else "mpn"
-        for line, mpn in zip(frames[name]["line"], frames[name][key]):
+        for line, mpn in zip(frames[name]["line"].tolist(), frames[name][key].tolist()):
             if mpn in first_seen:
                 problems.append(
                     Problem(path[name], int(line), key, f"'{mpn}' already used in {first_seen[mpn]}")
@@ -351,7 +420,7 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
 
     sup = frames["suppliers.csv"]
     seen_sup: set[str] = set()
-    for line, s in zip(sup["line"], sup["supplier"]):
+    for line, s in zip(sup["line"].tolist(), sup["supplier"].tolist()):
         if s in seen_sup:
             problems.append(Problem(path["suppliers.csv"], int(line), "supplier", f"'{s}' listed twice"))
         seen_sup.add(s)
@@ -371,7 +440,7 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
 
     off = frames["offers.csv"]
     seen_break: set[tuple[str, str, int]] = set()
-    for line, mpn, s, q in zip(off["line"], off["mpn"], off["supplier"], off["min_qty"]):
+    for line, mpn, s, q in zip(off["line"].tolist(), off["mpn"].tolist(), off["supplier"].tolist(), off["min_qty"].tolist()):
         if mpn not in first_seen:
             problems.append(Problem(path["offers.csv"], int(line), "mpn", f"unknown part or family '{mpn}'"))
         if s not in seen_sup:
@@ -386,7 +455,7 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
     offered = set(off["mpn"])
     for name in (*PART_FILES, "passives.csv"):
         key = "family" if name == "passives.csv" else "mpn"
-        missing = [m for m in frames[name][key] if m not in offered]
+        missing = [m for m in frames[name][key].tolist() if m not in offered]
         if missing:
             warnings.append(f"{name}: no offer for {', '.join(missing)}: these cannot be chosen")
     from partpick.catalog.plausibility import plausibility_warnings
@@ -402,8 +471,6 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
 
 
 def _transistor_checks(label: str, tr: pd.DataFrame) -> list[Problem]:
-    from partpick.model.soa import parse_soa_dc
-
     problems = []
     polarity = dict(zip(tr["mpn"], tr["polarity"]))
     for row in tr.itertuples(index=False):
@@ -421,7 +488,7 @@ def _transistor_checks(label: str, tr: pd.DataFrame) -> list[Problem]:
             problems.append(Problem(label, line, "tj_max_c", "must be above 25 degC"))
         if isinstance(row.soa_dc, str):
             try:
-                volts, amps = parse_soa_dc(row.soa_dc)
+                volts, _amps = _soa_points(row.soa_dc)
             except ValueError as exc:
                 problems.append(Problem(label, line, "soa_dc", str(exc).removeprefix("soa_dc: ")))
                 continue
@@ -461,8 +528,15 @@ def _missing(x: object) -> bool:
 
 
 def _attach_soa(tr: pd.DataFrame) -> None:
+    parsed = [_soa_points(s) if isinstance(s, str) else ((), ()) for s in tr["soa_dc"].tolist()]
+    tr["soa_v"] = [p[0] for p in parsed]
+    tr["soa_a"] = [p[1] for p in parsed]
+
+
+@functools.lru_cache(maxsize=1 << 14)
+def _soa_points(text: str) -> tuple[tuple[float, ...], tuple[float, ...]]:
+    """:func:`~partpick.model.soa.parse_soa_dc` as tuples of floats, once per distinct cell (catalogue rows share curves)."""
     from partpick.model.soa import parse_soa_dc
 
-    parsed = [parse_soa_dc(s) if isinstance(s, str) else ((), ()) for s in tr["soa_dc"]]
-    tr["soa_v"] = [tuple(float(v) for v in p[0]) for p in parsed]
-    tr["soa_a"] = [tuple(float(a) for a in p[1]) for p in parsed]
+    volts, amps = parse_soa_dc(text)
+    return tuple(float(v) for v in volts), tuple(float(a) for a in amps)
