@@ -452,7 +452,7 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
             )
         seen_break.add(key)
 
-    offered = set(off["mpn"])
+    offered = set(off["mpn"].tolist())
     for name in (*PART_FILES, "passives.csv"):
         key = "family" if name == "passives.csv" else "mpn"
         missing = [m for m in frames[name][key].tolist() if m not in offered]

@@ -91,10 +91,10 @@ def make_pool(
         When a supplier or an excluded name is not in the catalogue (a typo
         must not pass silently).
     """
-    known_parts = set(catalog.passives["family"])
+    known_parts = set(catalog.passives["family"].tolist())
     for frame in (catalog.transistors, catalog.opamps, catalog.regulators, catalog.heatsinks, catalog.diodes):
-        known_parts.update(frame["mpn"])
-    known_suppliers = set(catalog.suppliers["supplier"])
+        known_parts.update(frame["mpn"].tolist())
+    known_suppliers = set(catalog.suppliers["supplier"].tolist())
     problems = [
         Problem(spec_label, 0, "[order] suppliers", f"unknown supplier '{s}'")
         for s in spec.order.suppliers
@@ -116,8 +116,8 @@ def make_pool(
     allowed = set(spec.order.suppliers) or known_suppliers
     excluded = set(spec.order.exclude) | set(extra_exclude)
     offers = catalog.offers[catalog.offers["supplier"].isin(allowed) & ~catalog.offers["mpn"].isin(excluded)]
-    in_stock = set(offers.loc[offers["stock"] > 0, "mpn"])
-    any_offer = set(offers["mpn"])
+    in_stock = set(offers.loc[offers["stock"] > 0, "mpn"].tolist())
+    any_offer = set(offers["mpn"].tolist())
     left_out: dict[str, str] = {}
     for m in sorted(known_parts):
         if m in excluded:

@@ -263,11 +263,14 @@ def _couplings(targets, k, op, d_ok, i_fb, c_slew) -> list[Coupling]:
 
 
 def _offers(pool: Pool, lines: dict[str, tuple[str, float | None]]) -> dict[str, list[Offer]]:
+    """Each line's offers, by supplier and then quantity (only the parts and families the lines use are read)."""
     by_source: dict[str, list[Offer]] = {}
-    off = pool.offers.sort_values(["mpn", "supplier", "min_qty"])
-    for row in off.itertuples(index=False):
-        moq = 1 if row.moq is None or (isinstance(row.moq, float) and math.isnan(row.moq)) else int(row.moq)
-        by_source.setdefault(row.mpn, []).append(Offer(row.supplier, int(row.min_qty), float(row.unit_price), int(row.stock), moq))
+    off = pool.offers
+    off = off[off["mpn"].isin({src for src, _v in lines.values()})].sort_values(["mpn", "supplier", "min_qty"])
+    columns = [off[c].tolist() for c in ("mpn", "supplier", "min_qty", "unit_price", "stock", "moq")]
+    for mpn, supplier, min_qty, price, stock, moq in zip(*columns):
+        moq = 1 if moq is None or (isinstance(moq, float) and math.isnan(moq)) else int(moq)
+        by_source.setdefault(mpn, []).append(Offer(supplier, int(min_qty), float(price), int(stock), moq))
     return {key: by_source.get(src, []) for key, (src, _v) in lines.items()}
 
 
