@@ -78,14 +78,16 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     rail_i = k["rail_i"].to_numpy(int)
     rail_usage = {i: _rail_usage(rails.iloc[i].to_dict(), use) for i in np.unique(rail_i).tolist()}
     # One use (and one tuple) per distinct part of a role; the rows share them.
-    out_n, out_p = _shared(use, mpn_n, ch, "output_npn"), _shared(use, mpn_p, ch, "output_pnp")
-    own_p = _shared(use, src_p, ch, "bias_source_transistor")
-    own_n = _shared(use, src_n, ch, "bias_source_transistor")
-    refs = _shared(use, ref, ref_units.astype(float), "bias_source_reference")
+    # A row's uses, in order: output NPN, output PNP, the current sources'
+    # PNP and NPN and their reference (current-source rows), the rail's.
+    columns = [_shared(use, mpn_n, ch, "output_npn"), _shared(use, mpn_p, ch, "output_pnp"),
+               _shared(use, src_p, ch, "bias_source_transistor"), _shared(use, src_n, ch, "bias_source_transistor"),
+               _shared(use, ref, ref_units.astype(float), "bias_source_reference")]
+    out_n, out_p, own_p, own_n, refs = (made[of_row].tolist() for made, of_row in columns)
     usage = [[a, b, c, d, e] + rail_usage[r] if s else [a, b] + rail_usage[r]
              for a, b, c, d, e, s, r in zip(out_n, out_p, own_p, own_n, refs, ccs.tolist(), rail_i.tolist())]
     # Lines in the order of their first use, row by row, as one use at a time would register them.
-    order = {key: lines[key] for key in dict.fromkeys(key for u in usage for key, _q, _r in u)}
+    order = {key: lines[key] for key in _first_use_order(columns, rail_i, rail_usage)}
     lines.clear()
     lines.update(order)
     groups["stage"] = Group("stage", k["key"].tolist(), usage)
@@ -105,10 +107,7 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     tables["emitter_resistor"] = res
 
     # --- bias feed resistors
-    fo = stage.feed_options
-    fo = fo.assign(v2=fo["v2"].fillna(-1.0))
-    grouped = fo.groupby(["kind", "family", "v1", "v2"], sort=True)["k"].apply(lambda s: np.unique(s.to_numpy()))
-    opts = grouped.reset_index()
+    opts = _feed_groups(stage.feed_options)
     usage = []
     for row in opts.itertuples(index=False):
         if row.kind == "bias_resistor":
@@ -223,17 +222,74 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     return Assembly(problem, tables, lines, funnel, candidates)
 
 
-def _shared(use, sources: np.ndarray, per_board, role: str) -> list:
-    """``use(source, None, per_board, role)`` for every row, one call per distinct (source, per board); None where the source is None."""
+def _shared(use, sources: np.ndarray, per_board, role: str) -> tuple[np.ndarray, np.ndarray]:
+    """``use(source, None, per_board, role)`` once per distinct (source, per board) of the rows.
+
+    Returns ``(made, of_row)``: the uses (an object array; None for a row
+    without a source) and, for each row, the index of its use in ``made``.
+    """
     per = np.broadcast_to(np.asarray(per_board, dtype=float), (len(sources),))
-    made: dict[tuple, tuple[str, float, str] | None] = {}
-    out = []
-    for src, q in zip(sources.tolist(), per.tolist()):
-        key = (src, q)
-        if key not in made:
-            made[key] = None if src is None else use(src, None, q, role)
-        out.append(made[key])
-    return out
+    src_code, src_names = pd.factorize(np.asarray(sources, dtype=object))  # None: -1
+    per_code, per_values = pd.factorize(per)
+    pair = np.where(src_code >= 0, src_code.astype(np.int64) * max(len(per_values), 1) + per_code, -1)
+    distinct, of_row = np.unique(pair, return_inverse=True)
+    made = np.empty(len(distinct), dtype=object)
+    for j, c in enumerate(distinct.tolist()):
+        if c >= 0:
+            made[j] = use(src_names[c // len(per_values)], None, float(per_values[c % len(per_values)]), role)
+    return made, of_row.reshape(-1)
+
+
+def _first_use_order(columns: list[tuple[np.ndarray, np.ndarray]], rail_i: np.ndarray, rail_usage: dict[int, list]) -> list[str]:
+    """The stage's line keys in the order a scan of its rows, use by use, meets them first.
+
+    ``columns``: the :func:`_shared` results in the rows' use order; the
+    rail's uses follow them in every row (a row without current sources has
+    no uses in columns 2 to 4, so their places do not reorder it).
+    """
+    row, place, keys = [], [], []
+    for c, (made, of_row) in enumerate(columns):
+        used, first = np.unique(of_row, return_index=True)
+        for j, r in zip(used.tolist(), first.tolist()):
+            if made[j] is not None:
+                row.append(r), place.append(c), keys.append(made[j][0])
+    rails, first = np.unique(rail_i, return_index=True)
+    for rail, r in zip(rails.tolist(), first.tolist()):
+        for j, u in enumerate(rail_usage[rail]):
+            row.append(r), place.append(len(columns) + j), keys.append(u[0])
+    order = np.lexsort((np.array(place, dtype=np.int64), np.array(row, dtype=np.int64)))
+    return list(dict.fromkeys(keys[i] for i in order.tolist()))
+
+
+def _feed_groups(fo: pd.DataFrame) -> pd.DataFrame:
+    """The bias-feed options: one row per distinct (kind, family, v1, v2), sorted, with ``k`` the sorted configurations it serves.
+
+    ``v2`` of a single resistor is -1. ``fo``: the stage's feed-resistor
+    lines, one per (configuration ``k``, option).
+    """
+    v2 = fo["v2"].fillna(-1.0).to_numpy(float)
+    keys = [fo["kind"].to_numpy(object), fo["family"].to_numpy(object), fo["v1"].to_numpy(float), v2]
+    codes, values = zip(*(pd.factorize(x, sort=True) for x in keys))
+    k = fo["k"].to_numpy(np.int64)
+    # One integer per option (its codes in mixed radix) sorts as the tuples do.
+    option = np.zeros(len(k), dtype=np.int64)
+    for c, v in zip(codes, values):
+        option = option * len(v) + c
+    span = int(k.max()) + 1 if len(k) else 1
+    if math.prod(len(v) for v in values) * span < 2**62:
+        order = np.argsort(option * span + k)
+    else:
+        order = np.lexsort((k, option))
+    option, k = option[order], k[order]
+    new_group = np.r_[True, option[1:] != option[:-1]] if len(k) else np.zeros(0, bool)
+    keep = new_group | np.r_[True, k[1:] != k[:-1]] if len(k) else new_group
+    starts = np.flatnonzero(new_group[keep])
+    first = np.stack([c[order][new_group] for c in codes], axis=1) if len(k) else np.zeros((0, 4), np.int64)
+    return pd.DataFrame({
+        "kind": values[0][first[:, 0]], "family": values[1][first[:, 1]],
+        "v1": values[2][first[:, 2]], "v2": values[3][first[:, 3]],
+        "k": np.split(k[keep], starts[1:]) if len(starts) else [],
+    })
 
 
 def _rail_usage(rail: dict, use) -> list:
