@@ -318,13 +318,14 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     from it (:func:`solve_model`'s ``start``), and a solve stopped by the time
     limit never returns a dearer design than one already found.
 
-    ``time_limit`` bounds the whole loop, not each solve: every solve gets
-    what is left of it, and when nothing is left the best design found so far
-    comes back as not proven optimal (none found: :class:`SolverTimeout`,
-    as for a single solve).
+    ``time_limit`` bounds the whole loop, the cost bounds included, not
+    each solve: every solve gets what is left of it, and when nothing is
+    left the best design found so far comes back as not proven optimal
+    (none found: :class:`SolverTimeout`, as for a single solve).
     """
     from partpick.optimize import prune as reduce
 
+    deadline = None if time_limit is None else _clock() + time_limit
     bound = reduce.design_bounds(problem)
     floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
     finite = np.concatenate([b[np.isfinite(b)] for b in bound.values()])
@@ -333,7 +334,6 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     top = float(finite.max())
     threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
     best: Solution | None = None
-    deadline = None if time_limit is None else _clock() + time_limit
     while True:
         inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
         sol = None

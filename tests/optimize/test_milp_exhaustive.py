@@ -966,6 +966,34 @@ def test_the_time_limit_bounds_the_whole_threshold_loop(monkeypatch, first_takes
     assert sol.status == status
 
 
+def test_the_time_limit_counts_the_cost_bounds(monkeypatch) -> None:
+    # The cost bounds "take" 4 s of a 10 s limit on the fake clock: the first solve gets
+    # SOLVE_SHARE of the 6 s left, not of 10 s.
+    from partpick.optimize import prune
+
+    now = [0.0]
+    limits = []
+    real_solve = milp.solve_model
+
+    def fake(problem, tie, solver="cbc", time_limit=None, start=None):
+        limits.append(time_limit)
+        return real_solve(problem, tie, solver, None, start=start)
+
+    p = _two_solve_problem(monkeypatch)
+    parts_bounds = prune.design_bounds
+
+    def slow_bounds(problem):
+        now[0] += 4.0
+        return parts_bounds(problem)
+
+    monkeypatch.setattr(prune, "design_bounds", slow_bounds)
+    monkeypatch.setattr(milp, "_clock", lambda: now[0])
+    monkeypatch.setattr(milp, "solve_model", fake)
+    sol = milp.solve(p, "cbc", time_limit=10.0)
+    assert limits[0] == pytest.approx(0.75 * 6.0)
+    assert (sol.total, sol.status) == (pytest.approx(10.0), "optimal")
+
+
 def test_no_design_when_the_time_limit_is_spent_is_an_error(monkeypatch) -> None:
     # Every solve is made to report "infeasible", as a threshold that holds no design
     # does, while the clock runs past the limit: the loop must stop with the time-limit
