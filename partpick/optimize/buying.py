@@ -85,10 +85,16 @@ def line_no_dearer(better: list[Offer], worse: list[Offer], need: int) -> bool:
     purchase then maps to the same quantity (or, when one break alone covers
     the need, to max(smallest quantity, need)) at the same suppliers.
     """
+    return rows_no_dearer(tuple(usable(better)), tuple(usable(worse)), need)
+
+
+@functools.lru_cache(maxsize=1 << 16)
+def rows_no_dearer(better: tuple[tuple[str, int, float, int], ...], worse: tuple[tuple[str, int, float, int], ...], need: int) -> bool:
+    """:func:`line_no_dearer` of :func:`usable` offer rows, remembered (dominance asks it of the same lines again and again)."""
     by_supplier: dict[str, list[tuple[int, float, int]]] = {}
-    for s, low, p, st in usable(better):
+    for s, low, p, st in better:
         by_supplier.setdefault(s, []).append((low, p, st))
-    for s, low, p, st in usable(worse):
+    for s, low, p, st in worse:
         if not any(lb <= low and pb <= p and sb >= min(st, need) for lb, pb, sb in by_supplier.get(s, ())):
             return False
     return True

@@ -38,7 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partpick.optimize.buying import cheapest_of_rows, cheapest_purchase, line_no_dearer, usable
+from partpick.optimize.buying import cheapest_of_rows, cheapest_purchase, rows_no_dearer, usable
 from partpick.optimize.milp import Coupling, Group, Problem, set_classes
 
 #: Largest number of options compared pairwise in one block of a group.
@@ -635,6 +635,7 @@ class _GroupView:
         self.child_sets = [_packed_child_sets(problem, h) for h in children]
         self._usage(users)
         self.offers_memo: dict[tuple[str, str, int], bool] = {}
+        self.rows_memo: dict[str, tuple] = {}
 
     def _usage(self, users: dict[str, set[str]]) -> None:
         """Per option: a block id (roles, units, shared lines) and its private lines in role order."""
@@ -713,9 +714,14 @@ class _GroupView:
         """:func:`line_no_dearer` of two private lines (by code), memoised."""
         key = (self.line_names[better], self.line_names[worse], need)
         if key not in self.offers_memo:
-            offers = self.problem.line_offers
-            self.offers_memo[key] = line_no_dearer(offers.get(key[0], []), offers.get(key[1], []), need)
+            self.offers_memo[key] = rows_no_dearer(self._rows(key[0]), self._rows(key[1]), need)
         return self.offers_memo[key]
+
+    def _rows(self, line: str) -> tuple:
+        """:func:`usable` rows of a line's offers, once per line."""
+        if line not in self.rows_memo:
+            self.rows_memo[line] = tuple(usable(self.problem.line_offers.get(line, [])))
+        return self.rows_memo[line]
 
 
 def _split(labels: np.ndarray, items: np.ndarray | None = None) -> list[np.ndarray]:
