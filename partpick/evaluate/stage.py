@@ -23,6 +23,7 @@ issue notes):
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, replace
 
@@ -117,6 +118,14 @@ class _Sink:
     classes: list[float]  # Rth_cs mounting classes (NaN: the package default)
     n_dev: int  # output devices on one sink
     channels: int  # channels on one sink
+
+    @functools.cached_property
+    def devices(self) -> dict[str, tuple[np.ndarray, np.ndarray, np.ndarray]]:
+        """Per side (``_n``, ``_p``), each pair's (Tj max, Rth_jc, default Rth_cs of its package)."""
+        packages, of_pair = np.unique(self.pairs["package"].to_numpy(str), return_inverse=True)
+        rth_cs = np.asarray(thermal.rth_cs_default_k_w(packages), float).reshape(-1)[of_pair.reshape(-1)]
+        return {s: (self.pairs["tj_max_c" + s].to_numpy(float), self.pairs["rth_jc_k_w" + s].to_numpy(float), rth_cs)
+                for s in ("_n", "_p")}
 
 
 @dataclass
@@ -438,25 +447,35 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     )
 
 
-def _stage_rth(spec: Spec, core: pd.DataFrame, sink: _Sink, p_extra_w: np.ndarray | float = 0.0,
+_STAGE_RTH_COLUMNS = ("p_device_w", "soa_util", "rail_max_v", "re_ohm", "iq_a")
+
+
+def _stage_columns(core: pd.DataFrame) -> dict[str, np.ndarray]:
+    """The core configurations' columns :func:`_stage_rth` reads, as arrays (taken once for many calls)."""
+    return {"pair_i": core["pair_i"].to_numpy(int), **{c: core[c].to_numpy(float) for c in _STAGE_RTH_COLUMNS}}
+
+
+def _stage_rth(spec: Spec, core: pd.DataFrame | dict[str, np.ndarray], sink: _Sink, p_extra_w: np.ndarray | float = 0.0,
                rows: np.ndarray | None = None) -> np.ndarray:
     """Largest Rth_sa of every core configuration (or of ``rows`` of them) per mounting class [row, class].
 
+    ``core``: the core configurations or their :func:`_stage_columns`.
     ``p_extra_w`` is heat on the sink beyond the output devices' (the current
     sources when they are mounted there), one value per row computed.
     """
+    cols = _stage_columns(core) if isinstance(core, pd.DataFrame) else core
     pick = (lambda a: a) if rows is None else (lambda a: a[rows])  # noqa: E731
-    pi_ = pick(core["pair_i"].to_numpy(int))
-    col = lambda name: pick(core[name].to_numpy(float))  # noqa: E731
+    pi_ = pick(cols["pair_i"])
+    col = lambda name: pick(cols[name])  # noqa: E731
     limits = [
-        _rth_sa_max(spec, sink.pairs, pi_, col("p_device_w"), sink.n_dev, col("soa_util"), col("rail_max_v"),
+        _rth_sa_max(spec, sink.devices, pi_, col("p_device_w"), sink.n_dev, col("soa_util"), col("rail_max_v"),
                     col("re_ohm"), col("iq_a"), c, p_extra_w)
         for c in sink.classes
     ]
     return np.stack(limits, axis=1) if len(pi_) else np.zeros((0, len(sink.classes)))
 
 
-def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_class, p_extra_w=0.0) -> np.ndarray:
+def _rth_sa_max(spec, devices, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_class, p_extra_w=0.0) -> np.ndarray:
     """Largest Rth_sa keeping Tj, the derated SOA and the loop gain for each device of the pair.
 
     The loop gain (model s.7) counts the output devices only: heat on the sink
@@ -465,11 +484,10 @@ def _rth_sa_max(spec, pairs, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs_c
     amb = spec.thermal.ambient_c
     out = np.full(len(pi_), np.inf)
     for s in ("_n", "_p"):
-        tj_max = pairs["tj_max_c" + s].to_numpy(float)[pi_]
-        rth_jc = pairs["rth_jc_k_w" + s].to_numpy(float)[pi_]
+        tj_all, rth_jc_all, rth_cs_all = devices[s]  # per pair: _Sink.devices
+        tj_max, rth_jc = tj_all[pi_], rth_jc_all[pi_]
         if math.isnan(rth_cs_class):
-            packages, of_pair = np.unique(pairs["package"].to_numpy(str), return_inverse=True)
-            rth_cs = np.asarray(thermal.rth_cs_default_k_w(packages), float).reshape(-1)[of_pair][pi_]
+            rth_cs = rth_cs_all[pi_]
         else:
             rth_cs = np.full(len(pi_), rth_cs_class)
         p_sink = n_dev * p_dev + p_extra_w
@@ -592,6 +610,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     i_req = np.full(len(core), fixed) if fixed is not None else np.maximum(i_need, CCS_MIN_CURRENT_A)
     compliance = swing.ccs_compliance_margin_v(rail_min, base_pk) >= 0
     span = core["span_max_v"].to_numpy(float)
+    core_cols = _stage_columns(core)
     amb = spec.thermal.ambient_c
     family = fams["family"].to_numpy(object)
     power_w = fams["power_w"].to_numpy(float)
@@ -637,7 +656,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                     # Only rows a source can feed need the sink limits; the others stay unserved.
                     cand = np.flatnonzero(best > 0)
                     limits = np.full((len(core), len(sink.classes)), -np.inf)
-                    limits[cand] = _ccs_sink_limits(spec, core, sink, dev, rail_max, best, cand)
+                    limits[cand] = _ccs_sink_limits(spec, core_cols, sink, dev, rail_max, best, cand)
                     best = np.where(np.nanmax(limits, axis=1) > 0, best, 0.0)
                 idx = np.flatnonzero(best > 0)
                 if not len(idx):
@@ -734,9 +753,11 @@ def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray
     return (tj <= dev["tj_limit_c"]) & (_ccs_soa_util(dev, i_a) <= derate)
 
 
-def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
+def _ccs_sink_limits(spec: Spec, core: dict[str, np.ndarray], sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
                      rows: np.ndarray) -> np.ndarray:
     """Largest Rth_sa per mounting class with the current sources on the sink [row of ``rows``, class].
+
+    ``core``: the core configurations' :func:`_stage_columns`.
 
     The output devices' limits with the sources' heat added to the sink, and
     the source transistor's own junction and SOA at its case temperature.
@@ -746,7 +767,7 @@ def _ccs_sink_limits(spec: Spec, core: pd.DataFrame, sink: _Sink, dev: dict, rai
     rail_max, i_a = rail_max[rows], i_a[rows]
     extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
     outputs = _stage_rth(spec, core, sink, extra, rows)
-    p_sink = sink.n_dev * core["p_device_w"].to_numpy(float)[rows] + extra
+    p_sink = sink.n_dev * core["p_device_w"][rows] + extra
     p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
     own = []
     for c in sink.classes:
