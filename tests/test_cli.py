@@ -326,3 +326,23 @@ def test_evaluate_says_when_the_part_serves_another_role_only(capsys):
     out = " ".join(capsys.readouterr().out.split())
     assert code == 4
     assert "no output npn option of this spec uses it; as bias source transistor:" in out
+
+
+# ----------------------------------------------------------------------------- the collector
+
+
+@pytest.mark.parametrize("own_process", [True, False])
+def test_imports_are_frozen_out_of_the_collector_only_in_a_process_of_its_own(monkeypatch, capsys, own_process):
+    # partpick's own process (argv from sys.argv) freezes the objects its imports made
+    # once the command's modules are loaded; a caller passing argv (this test process)
+    # keeps its collector untouched. The freeze is recorded, not done, here.
+    import gc
+
+    calls = []
+    monkeypatch.setattr(gc, "freeze", lambda: calls.append(True))
+    argv = ["partpick", "--no-color", "catalog-check", str(DEMO_CATALOG)]
+    monkeypatch.setattr("sys.argv", argv)
+    code = main() if own_process else main(argv[1:])
+    capsys.readouterr()
+    assert code == 0
+    assert calls == ([True] if own_process else [])
