@@ -271,13 +271,36 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         return solve_model(problem, tie, solver, time_limit)
     from partpick.optimize import prune as reduce
 
-    fixed = reduce.forced_only(problem)
+    fixed = _meeting_own_couplings(problem, reduce.forced_only(problem))
+    if not all(len(k) for k in fixed.values()):
+        return _infeasible(solver)  # some group has no option left to choose
     sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
     if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
         sol = _solve_bounded(sub, sub_tie, solver, time_limit)
     else:
         sol = _solve_reduced(sub, reduce.dominated(sub, sub_tie), sub_tie, solver, time_limit)
     return _lift(sol, fixed)
+
+
+def _meeting_own_couplings(problem: Problem, keep: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """``keep`` without the options that break a coupling over their group alone.
+
+    A group chooses exactly one option, so a coupling whose terms are one
+    group's holds exactly when the chosen option's own coefficient meets the
+    right side (as :func:`check_choice` tests it). Callers use such couplings
+    to hold a group to some options ("one of these", "none of these"); as
+    rows they leave every other option in the cost bounds and the search,
+    while dropping the options is the same problem, smaller.
+    """
+    out = dict(keep)
+    for c in problem.couplings:
+        if len(c.terms) != 1:
+            continue
+        ((g, coef),) = c.terms.items()
+        own = np.asarray(coef, float)[out[g]]
+        ok = own <= c.rhs + 1e-9 if c.sense == "<=" else own >= c.rhs - 1e-9
+        out[g] = out[g][ok]
+    return out
 
 
 def _lift(sol: Solution, keep: dict[str, np.ndarray]) -> Solution:

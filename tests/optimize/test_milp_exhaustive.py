@@ -733,6 +733,38 @@ def test_couplings_and_compat_decide_together() -> None:
     assert_matches(cut, brute_force(cut), "cost")
 
 
+def test_a_coupling_over_one_group_holds_the_search_to_its_options(monkeypatch) -> None:
+    # Hand-worked: g0 has three options on lines of 1.00, 2.00 and 3.00, g1 one of 1.00.
+    # "one of g0's options 1 or 2" (a 0/1 row >= 1) and "not option 1" (<= 0) leave
+    # option 2: 3.00 + 1.00 = 4.00. A coupling over both groups is left to the MILP.
+    # The cost bounds see g0 with option 2 alone (the options a coupling over one group
+    # rules out are dropped before the search, not left to its rows).
+    from partpick.optimize import prune
+
+    g0 = Group("g0", ["a", "b", "c"], [[("A", 1.0, "r")], [("B", 1.0, "r")], [("C", 1.0, "r")]])
+    g1 = Group("g1", ["d"], [[("D", 1.0, "s")]])
+    price = {"A": 1.0, "B": 2.0, "C": 3.0, "D": 1.0}
+    offers = {line: [Offer("S", 1, v, 10, 1)] for line, v in price.items()}
+    couplings = [
+        Coupling("one of b, c", {"g0": np.array([0.0, 1.0, 1.0])}, ">=", 1.0),
+        Coupling("not b", {"g0": np.array([0.0, 1.0, 0.0])}, "<=", 0.0),
+        Coupling("both", {"g0": np.array([1.0, 1.0, 1.0]), "g1": np.array([1.0])}, "<=", 2.0),
+    ]
+    p = Problem({"g0": g0, "g1": g1}, couplings, offers, {"S": 0.0}, 1.0)
+    seen = []
+    real = prune.design_bounds
+    monkeypatch.setattr(prune, "design_bounds", lambda q: seen.append({g: len(grp) for g, grp in q.groups.items()}) or real(q))
+    exact = brute_force(p)
+    assert (exact.cost, exact.choice) == (pytest.approx(4.0), {"g0": 2, "g1": 0})
+    sol = solve(p, "cbc")
+    assert (sol.total, sol.choice) == (pytest.approx(4.0), {"g0": 2, "g1": 0})
+    assert seen == [{"g0": 1, "g1": 1}]
+    # Rows that no option meets: infeasible, as the rows alone would say.
+    none = replace(p, couplings=couplings + [Coupling("not c", {"g0": np.array([0.0, 0.0, 1.0])}, "<=", 0.0)])
+    assert brute_force(none) is None
+    assert solve(none, "cbc").status == "infeasible"
+
+
 def test_infeasible_when_stock_cannot_cover() -> None:
     p = _one_line_problem(10.0, [Offer("S1", 1, 1.00, 4, 1)], {"S1": 0.0})
     assert brute_force(p) is None
