@@ -201,31 +201,12 @@ def _dispatch(args: argparse.Namespace, console, own_process: bool = False) -> i
         folder = Path(args.folder) if args.folder else default_catalog_dir()
         print_catalog_summary(console, load_catalog(folder))
         return EXIT_OK
-    if args.command == "demo":
-        from partpick.commands import run_demo
+    if args.command in ("demo", "design", "evaluate", "sweep", "why"):
+        from partpick import commands
 
         _settle(own_process)
-        return run_demo(console)
-    if args.command == "design":
-        from partpick.commands import run_design
-
-        _settle(own_process)
-        return run_design(args, console)
-    if args.command == "evaluate":
-        from partpick.commands import run_evaluate
-
-        _settle(own_process)
-        return run_evaluate(args, console)
-    if args.command == "sweep":
-        from partpick.commands import run_sweep
-
-        _settle(own_process)
-        return run_sweep(args, console)
-    if args.command == "why":
-        from partpick.commands import run_why
-
-        _settle(own_process)
-        return run_why(args, console)
+        run = getattr(commands, "run_" + args.command)
+        return run(console) if args.command == "demo" else run(args, console)
     raise UsageError(f"unknown command {args.command}")  # pragma: no cover
 
 
