@@ -32,6 +32,7 @@ import pandas as pd
 
 from partpick.errors import UsageError
 from partpick.evaluate.context import Pool, Targets, quiescent_a
+from partpick.evaluate.distinct import distinct_rows
 from partpick.model import bias, dissipation, eseries, regulator, soa, swing, thermal
 from partpick.model.defaults import (
     BASE_DRIVE_MARGIN,
@@ -883,28 +884,15 @@ def _keys(k: pd.DataFrame, rails: pd.DataFrame, pairs: pd.DataFrame) -> list[str
     each distinct part is formatted once (current sources repeat every core
     configuration for every feed).
     """
-    core, core_rows = _distinct_rows(k[["pair_i", "rail_i", "re_ohm"]])
-    feed, feed_rows = _distinct_rows(k[["feed", "ccs_n_i", "ccs_p_i", "ref_i", "ccs_mount"]])
+    pair_i, rail_i, re_ohm = (k[c].to_numpy() for c in ("pair_i", "rail_i", "re_ohm"))
+    feed = [k[c].to_numpy() for c in ("feed", "ccs_n_i", "ccs_p_i", "ref_i", "ccs_mount")]
+    core, core_rows = distinct_rows([pair_i, rail_i, re_ohm])
+    fed, feed_rows = distinct_rows(feed)
     pn, pp = pairs["mpn_n"].to_numpy(), pairs["mpn_p"].to_numpy()
     rv = rails["rail_min_v"].to_numpy(float)
-    head = [f"{pn[p]}/{pp[p]}|{rv[r]:09.4f}|{re:.4f}|" for p, r, re in core]
-    tail = [f"{f}|{c1}|{c2}|{ri}|{m}" for f, c1, c2, ri, m in feed]
+    head = [f"{pn[p]}/{pp[p]}|{rv[r]:09.4f}|{re:.4f}|" for p, r, re in zip(pair_i[core], rail_i[core], re_ohm[core].tolist())]
+    tail = [f"{f}|{c1}|{c2}|{ri}|{m}" for f, c1, c2, ri, m in zip(*(col[fed].tolist() for col in feed))]
     return [head[i] + tail[j] for i, j in zip(core_rows.tolist(), feed_rows.tolist())]
-
-
-def _distinct_rows(frame: pd.DataFrame) -> tuple[list[tuple], np.ndarray]:
-    """The distinct rows of ``frame`` as tuples of Python values, and each row's index among them."""
-    codes = [pd.factorize(frame[c].to_numpy(), use_na_sentinel=False)[0].astype(np.int64) for c in frame.columns]
-    sizes = [int(c.max()) + 1 if len(c) else 1 for c in codes]
-    if math.prod(sizes) < 2**62:
-        key = np.zeros(len(frame), dtype=np.int64)
-        for c, n in zip(codes, sizes):
-            key = key * n + c
-        _, first, of_row = np.unique(key, return_index=True, return_inverse=True)
-    else:
-        _, first, of_row = np.unique(np.stack(codes, axis=1), axis=0, return_index=True, return_inverse=True)
-    values = [frame[c].to_numpy()[first].tolist() for c in frame.columns]
-    return list(zip(*values)), of_row.reshape(-1)
 
 
 def _empty(rails, pairs, res, funnel, considered) -> StageTable:

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from partpick.evaluate.context import Pool, Targets
+from partpick.evaluate.distinct import distinct_rows
 from partpick.evaluate.roles import (
     comp_cap_options,
     diode_candidates,
@@ -228,16 +229,14 @@ def _shared(use, sources: np.ndarray, per_board, role: str) -> tuple[np.ndarray,
     Returns ``(made, of_row)``: the uses (an object array; None for a row
     without a source) and, for each row, the index of its use in ``made``.
     """
+    sources = np.asarray(sources, dtype=object)
     per = np.broadcast_to(np.asarray(per_board, dtype=float), (len(sources),))
-    src_code, src_names = pd.factorize(np.asarray(sources, dtype=object))  # None: -1
-    per_code, per_values = pd.factorize(per)
-    pair = np.where(src_code >= 0, src_code.astype(np.int64) * max(len(per_values), 1) + per_code, -1)
-    distinct, of_row = np.unique(pair, return_inverse=True)
-    made = np.empty(len(distinct), dtype=object)
-    for j, c in enumerate(distinct.tolist()):
-        if c >= 0:
-            made[j] = use(src_names[c // len(per_values)], None, float(per_values[c % len(per_values)]), role)
-    return made, of_row.reshape(-1)
+    first, of_row = distinct_rows([sources, per])
+    made = np.empty(len(first), dtype=object)
+    for j, r in enumerate(first.tolist()):
+        if sources[r] is not None:
+            made[j] = use(sources[r], None, float(per[r]), role)
+    return made, of_row
 
 
 def _first_use_order(columns: list[tuple[np.ndarray, np.ndarray]], rail_i: np.ndarray, rail_usage: dict[int, list]) -> list[str]:
@@ -267,28 +266,15 @@ def _feed_groups(fo: pd.DataFrame) -> pd.DataFrame:
     ``v2`` of a single resistor is -1. ``fo``: the stage's feed-resistor
     lines, one per (configuration ``k``, option).
     """
-    v2 = fo["v2"].fillna(-1.0).to_numpy(float)
-    keys = [fo["kind"].to_numpy(object), fo["family"].to_numpy(object), fo["v1"].to_numpy(float), v2]
-    codes, values = zip(*(pd.factorize(x, sort=True) for x in keys))
+    keys = [fo["kind"].to_numpy(object), fo["family"].to_numpy(object), fo["v1"].to_numpy(float), fo["v2"].fillna(-1.0).to_numpy(float)]
+    first, option = distinct_rows(keys, sort=True)
     k = fo["k"].to_numpy(np.int64)
-    # One integer per option (its codes in mixed radix) sorts as the tuples do.
-    option = np.zeros(len(k), dtype=np.int64)
-    for c, v in zip(codes, values):
-        option = option * len(v) + c
-    span = int(k.max()) + 1 if len(k) else 1
-    if math.prod(len(v) for v in values) * span < 2**62:
-        order = np.argsort(option * span + k)
-    else:
-        order = np.lexsort((k, option))
-    option, k = option[order], k[order]
-    new_group = np.r_[True, option[1:] != option[:-1]] if len(k) else np.zeros(0, bool)
-    keep = new_group | np.r_[True, k[1:] != k[:-1]] if len(k) else new_group
-    starts = np.flatnonzero(new_group[keep])
-    first = np.stack([c[order][new_group] for c in codes], axis=1) if len(k) else np.zeros((0, 4), np.int64)
+    pairs, _ = distinct_rows([option, k], sort=True)  # each (option, configuration) once, in that order
+    option_of, k_of = option[pairs], k[pairs]
+    starts = np.flatnonzero(np.r_[True, option_of[1:] != option_of[:-1]]) if len(pairs) else np.zeros(0, np.int64)
     return pd.DataFrame({
-        "kind": values[0][first[:, 0]], "family": values[1][first[:, 1]],
-        "v1": values[2][first[:, 2]], "v2": values[3][first[:, 3]],
-        "k": np.split(k[keep], starts[1:]) if len(starts) else [],
+        "kind": keys[0][first], "family": keys[1][first], "v1": keys[2][first], "v2": keys[3][first],
+        "k": np.split(k_of, starts[1:]) if len(pairs) else [],
     })
 
 
