@@ -297,10 +297,13 @@ def _meeting_own_couplings(problem: Problem, keep: dict[str, np.ndarray]) -> dic
         if len(c.terms) != 1:
             continue
         ((g, coef),) = c.terms.items()
-        own = np.asarray(coef, float)[out[g]]
-        ok = own <= c.rhs + 1e-9 if c.sense == "<=" else own >= c.rhs - 1e-9
-        out[g] = out[g][ok]
+        out[g] = out[g][_holds(c, np.asarray(coef, float)[out[g]])]
     return out
+
+
+def _holds(c: Coupling, lhs):
+    """Whether a coupling's left side (a number or an array of them) meets its right side, to 1e-9."""
+    return lhs <= c.rhs + 1e-9 if c.sense == "<=" else lhs >= c.rhs - 1e-9
 
 
 def _lift(sol: Solution, keep: dict[str, np.ndarray]) -> Solution:
@@ -690,9 +693,9 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         # purchase (above all, high breaks far past the need) get no variables.
         useful = useful_breaks(offers, need_max, supplier_tie)
         for r_i, off in enumerate(offers):
-            low = smallest_qty(off)
             if not useful[r_i]:
                 continue
+            low = smallest_qty(off)
             cap = min(off.stock, max(need_max, low))
             z = pulp.LpVariable(f"z_{l_i}_{r_i}", cat="Binary")
             q = pulp.LpVariable(f"q_{l_i}_{r_i}", lowBound=0, upBound=cap, cat="Integer")
@@ -848,8 +851,6 @@ def check_choice(problem: Problem, choice: dict[str, int]) -> list[str]:
         if g.parent is not None and choice[g.parent] not in set(g.compat[choice[gname]].tolist()):
             broken.append(f"compat {gname}")
     for c in problem.couplings:
-        lhs = sum(float(coef[choice[g]]) for g, coef in c.terms.items())
-        ok = lhs <= c.rhs + 1e-9 if c.sense == "<=" else lhs >= c.rhs - 1e-9
-        if not ok:
+        if not _holds(c, sum(float(coef[choice[g]]) for g, coef in c.terms.items())):
             broken.append(c.name)
     return broken
