@@ -236,9 +236,10 @@ class _CellReader:
     whose every cell passes its field's validators alone is the record the
     model accepts, with the same values; a column absent from the header
     takes the field's default, as in the model. A model that gains a rule
-    over several columns (a ``model_validator``) is read whole, row by row. Catalogue columns repeat
-    their cells (suppliers, quantities, prices, packages), so most cells are
-    a dictionary lookup instead of a validation.
+    over several columns (a ``model_validator``) is read whole, row by row.
+    Catalogue columns repeat their cells (suppliers, quantities, prices,
+    packages), so most cells are a dictionary lookup instead of a
+    validation.
     """
 
     def __init__(self, header: list[str], model: type[Row]):

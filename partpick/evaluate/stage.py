@@ -389,7 +389,7 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
             vceo_v=w["vceo_v"][pi_], ic_max_a=w["ic_max_a"][pi_],
         )
     )
-    rth_max = _stage_rth(spec, core, sink)
+    rth_max = _stage_rth(spec, _stage_columns(core), sink)
     core["rth_sa_best_k_w"] = np.nanmax(rth_max, axis=1)
     thermal_ok = core["rth_sa_best_k_w"].to_numpy() > 0
     core_checks = {
@@ -456,15 +456,14 @@ def _stage_columns(core: pd.DataFrame) -> dict[str, np.ndarray]:
     return {"pair_i": core["pair_i"].to_numpy(int), **{c: core[c].to_numpy(float) for c in _STAGE_RTH_COLUMNS}}
 
 
-def _stage_rth(spec: Spec, core: pd.DataFrame | dict[str, np.ndarray], sink: _Sink, p_extra_w: np.ndarray | float = 0.0,
+def _stage_rth(spec: Spec, cols: dict[str, np.ndarray], sink: _Sink, p_extra_w: np.ndarray | float = 0.0,
                rows: np.ndarray | None = None) -> np.ndarray:
     """Largest Rth_sa of every core configuration (or of ``rows`` of them) per mounting class [row, class].
 
-    ``core``: the core configurations or their :func:`_stage_columns`.
+    ``cols``: the core configurations' :func:`_stage_columns`.
     ``p_extra_w`` is heat on the sink beyond the output devices' (the current
     sources when they are mounted there), one value per row computed.
     """
-    cols = _stage_columns(core) if isinstance(core, pd.DataFrame) else core
     pick = (lambda a: a) if rows is None else (lambda a: a[rows])  # noqa: E731
     pi_ = pick(cols["pair_i"])
     col = lambda name: pick(cols[name])  # noqa: E731
