@@ -442,11 +442,12 @@ def test_time_limit_reaches_every_search_of_the_command(capsys, tmp_path, monkey
     from partpick.optimize import milp
 
     real = milp.solve
-    limits = []
+    limits, reused = [], []
 
-    def spy(problem, solver="cbc", time_limit=None, prune=True):
+    def spy(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
         limits.append(time_limit)
-        return real(problem, solver=solver, time_limit=time_limit, prune=prune)
+        reused.append(bounds is not None)
+        return real(problem, solver=solver, time_limit=time_limit, prune=prune, bounds=bounds)
 
     monkeypatch.setattr(milp, "solve", spy)
     monkeypatch.setattr("partpick.optimize.design.solve", spy)
@@ -459,6 +460,8 @@ def test_time_limit_reaches_every_search_of_the_command(capsys, tmp_path, monkey
     # (the first alternative is the design itself, not searched again).
     assert len(limits) == 1 + 1 + len(rep["stock_risk"]) + 2
     assert set(limits) == {45.0}
+    # Every re-solve adds a rule to the design's own problem and takes its cost bounds.
+    assert reused == [False] + [True] * (len(limits) - 1)
 
 
 def test_time_limit_without_a_design_for_the_other_feed_leaves_the_comparison_out(tmp_path, monkeypatch):
@@ -475,13 +478,13 @@ def test_time_limit_without_a_design_for_the_other_feed_leaves_the_comparison_ou
     found = compare_feeds(result, catalog, time_limit=45.0)
     assert found["feasible"] is True and "best" in found["reason"]  # with time, a proven comparison
 
-    def no_design(problem, solver="cbc", time_limit=None, prune=True):
+    def no_design(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
         raise SolverTimeout(time_limit)
 
     monkeypatch.setattr(milp, "solve", no_design)
     assert compare_feeds(result, catalog, time_limit=45.0) is None
 
-    def crashed(problem, solver="cbc", time_limit=None, prune=True):
+    def crashed(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
         raise SolverError("the solver stopped without a design")
 
     monkeypatch.setattr(milp, "solve", crashed)
@@ -499,7 +502,7 @@ def test_stock_risk_says_when_no_design_was_found_in_time(monkeypatch):
 
     result = design_mod.run(load_spec(MODULE), load_catalog(DEMO_CATALOG))
 
-    def no_design(problem, solver="cbc", time_limit=None, prune=True):
+    def no_design(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
         raise SolverTimeout(time_limit)
 
     monkeypatch.setattr(milp, "solve", no_design)

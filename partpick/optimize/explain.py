@@ -216,7 +216,7 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
         same_pair = list(np.flatnonzero(k["pair_i"].to_numpy() == k["pair_i"].iloc[last["stage"]]))
         problem.forbidden.append({"stage": same_pair, "driver_opamp": [last["driver_opamp"]]})
         try:
-            sol = solve(problem, solver=solver, time_limit=time_limit)
+            sol = solve(problem, solver=solver, time_limit=time_limit, bounds=first.solution.bounds)
         except SolverTimeout:
             break
         if sol.status == "infeasible":
@@ -257,7 +257,7 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         problem = result.assembly.problem
         problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
         try:
-            alt = solve(problem, solver=solver, time_limit=time_limit)
+            alt = solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
         except SolverTimeout:
             return None
         finally:

@@ -138,6 +138,12 @@ class Solution:
     fees_cost: float
     suppliers_used: list[str]
     solver: str
+    #: The cost bounds the search used (per group, a lower bound on the
+    #: objective of any design holding each option; inf for options no design
+    #: can hold), or None. They stay valid for this problem with constraints
+    #: added (couplings, cuts), so a re-solve of such a problem may take them
+    #: (:func:`solve`'s ``bounds``) instead of computing them again.
+    bounds: dict[str, np.ndarray] | None = field(default=None, repr=False, compare=False)
 
     @property
     def total(self) -> float:
@@ -255,7 +261,8 @@ def tie_weights(problem: Problem) -> dict[str, np.ndarray]:
     return out
 
 
-def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None, prune: bool = True) -> Solution:
+def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None, prune: bool = True,
+          bounds: dict[str, np.ndarray] | None = None) -> Solution:
     """The optimal choice and order; see the module docstring for the formulation.
 
     With ``prune`` (the default) the exact reductions of
@@ -265,6 +272,15 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     optimum is proven (:func:`_solve_bounded`). The answer, tie-break
     included, is the one the whole problem gives; ``prune=False`` solves the
     whole problem (the benchmark's reference route).
+
+    ``bounds`` (per group, one per option of ``problem``) are lower bounds on
+    the objective of a design holding each option, to use instead of
+    computing them: the :attr:`Solution.bounds` of a solve of this problem
+    before constraints were added to it (a coupling, a cut). Any design of
+    the problem with more constraints is a design of the one before, so they
+    still bound it; bounds computed afresh may be tighter and then thin the
+    search sooner, but the answer is the same. The solution returned carries
+    the bounds it used in :attr:`Solution.bounds`.
     """
     tie = tie_weights(problem)
     if not prune:
@@ -276,7 +292,10 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         return _infeasible(solver)  # some group has no option left to choose
     sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
     if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
-        sol = _solve_bounded(sub, sub_tie, solver, time_limit)
+        known = None if bounds is None else {g: np.asarray(bounds[g], float)[fixed[g]] for g in fixed}
+        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known)
+        if sol.bounds is not None:
+            sol.bounds = {g: _widened(b, fixed[g], len(problem.groups[g])) for g, b in sol.bounds.items()}
     else:
         sol = _solve_reduced(sub, reduce.dominated(sub, sub_tie), sub_tie, solver, time_limit)
     return _lift(sol, fixed)
@@ -298,6 +317,13 @@ def _meeting_own_couplings(problem: Problem, keep: dict[str, np.ndarray]) -> dic
             continue
         ((g, coef),) = c.terms.items()
         out[g] = out[g][_holds(c, np.asarray(coef, float)[out[g]])]
+    return out
+
+
+def _widened(values: np.ndarray, keep: np.ndarray, n: int) -> np.ndarray:
+    """Bounds of the ``keep`` options as bounds of all ``n``: inf for the rest, which no design can hold."""
+    out = np.full(n, math.inf)
+    out[keep] = values
     return out
 
 
@@ -329,7 +355,8 @@ def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str,
     return _lift(solve_model(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, time_limit, start=first), keep)
 
 
-def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
+def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None,
+                   bound: dict[str, np.ndarray] | None = None) -> Solution:
     """Solve on the options whose cost bound is below a threshold T, widening T until the optimum is proven.
 
     Every design holding an option left out costs more than T; once the
@@ -348,11 +375,26 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
     each solve: every solve gets what is left of it, and when nothing is
     left the best design found so far comes back as not proven optimal
     (none found: :class:`SolverTimeout`, as for a single solve).
+
+    ``bound`` is the cost bounds when the caller has them (see
+    :func:`solve`); otherwise they are computed here. The solution returned
+    carries them.
     """
+    deadline = None if time_limit is None else _clock() + time_limit
+    if bound is None:
+        from partpick.optimize.prune import design_bounds
+
+        bound = design_bounds(problem)
+    sol = _widen(problem, tie, solver, time_limit, deadline, bound)
+    sol.bounds = bound
+    return sol
+
+
+def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None, deadline: float | None,
+           bound: dict[str, np.ndarray]) -> Solution:
+    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``."""
     from partpick.optimize import prune as reduce
 
-    deadline = None if time_limit is None else _clock() + time_limit
-    bound = reduce.design_bounds(problem)
     floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
     finite = np.concatenate([b[np.isfinite(b)] for b in bound.values()])
     if not math.isfinite(floor) or not len(finite):

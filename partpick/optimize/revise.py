@@ -263,6 +263,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     families = set(result.pool.passives["family"])
     risks = []
     seen: set[str] = set()
+    holders: dict[str, dict[str, set[int]]] | None = None  # part -> group -> options using it, made on first need
     for g, o in sol.choice.items():
         for line, _q, role in problem.groups[g].usage[o]:
             src = asm.lines[line][0]
@@ -272,14 +273,16 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
             need = sol.need[line]
             stocked = sorted({off.supplier for off in problem.line_offers.get(line, []) if off.stock >= need})
             saved = list(problem.couplings)
-            for grp_name, grp in problem.groups.items():
-                bad = np.array([any(asm.lines[l][0] == src for l, _q2, _r in u) for u in grp.usage], float)
-                if bad.any():
-                    problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
+            if holders is None:
+                holders = _holders(problem, asm.lines)
+            for grp_name, opts in holders[src].items():
+                bad = np.zeros(len(problem.groups[grp_name]))
+                bad[list(opts)] = 1.0
+                problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
             from partpick.optimize.milp import solve
 
             try:
-                alt = solve(problem, solver=solver, time_limit=time_limit)
+                alt = solve(problem, solver=solver, time_limit=time_limit, bounds=sol.bounds)
             except SolverTimeout:
                 alt = None
             finally:
@@ -296,3 +299,13 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
                     replacement = f"{replacement or 'the same parts'} (not proven optimal)"
             risks.append(Risk(src, role, stocked, len(stocked) <= 1, total, replacement))
     return risks
+
+
+def _holders(problem, lines: dict) -> dict[str, dict[str, set[int]]]:
+    """For each part (a line's source), the options of each group that use it: one pass over every usage."""
+    out: dict[str, dict[str, set[int]]] = {}
+    for g, grp in problem.groups.items():
+        for o, usage in enumerate(grp.usage):
+            for line, _q, _r in usage:
+                out.setdefault(lines[line][0], {}).setdefault(g, set()).add(o)
+    return out
