@@ -296,6 +296,8 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
         sol = _solve_bounded(sub, sub_tie, solver, time_limit, known)
         if sol.bounds is not None:
             sol.bounds = {g: _widened(b, fixed[g], len(problem.groups[g])) for g, b in sol.bounds.items()}
+    elif problem.objective == "cost":
+        sol = _solve_fewest_changes(sub, sub_tie, solver, time_limit)
     else:
         sol = _solve_reduced(sub, reduce.dominated(sub, sub_tie), sub_tie, solver, time_limit)
     return _lift(sol, fixed)
@@ -387,6 +389,44 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
         bound = design_bounds(problem)
     sol = _widen(problem, tie, solver, time_limit, deadline, bound)
     sol.bounds = bound
+    return sol
+
+
+def _solve_fewest_changes(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
+    """Fewest changed roles first, then cost: solved on the options a design with at most C changes can hold, C rising.
+
+    :func:`~partpick.optimize.prune.change_bounds` bounds from below the
+    changes of any design holding each option, so every design with at most
+    C changes holds only options whose bound is at most C. Once the problem
+    restricted to those options has a design, its best (fewest changes, then
+    cost, ties as in the whole problem) is the whole problem's best: a design
+    holding any other option has more than C changes, and the restriction's
+    best has at most C. C runs over the bounds' own values, from the least
+    that every group reaches; a level with no design goes on to the next.
+    Dominance (which counts changes as a column) thins each level first.
+
+    ``time_limit`` is one budget for every level's solve; a level's solve
+    that runs out of it ends the search as a single solve would.
+    """
+    from partpick.optimize import prune as reduce
+
+    deadline = None if time_limit is None else _clock() + time_limit
+    bound = reduce.change_bounds(problem)
+    finite = [b[np.isfinite(b)] for b in bound.values()]
+    if not all(len(f) for f in finite):
+        return _infeasible(solver)
+    floor = max(float(f.min()) for f in finite)
+    levels = np.unique(np.concatenate(finite))
+    sol = _infeasible(solver)
+    for level in levels[levels >= floor - 1e-9]:
+        keep = {g: np.flatnonzero(b <= level + 1e-9) for g, b in bound.items()}
+        keep = reduce.compose(keep, reduce.dominated(reduce.restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}))
+        left = None if deadline is None else deadline - _clock()
+        if left is not None and left <= 0:
+            raise SolverTimeout(time_limit)
+        sol = _solve_reduced(problem, keep, tie, solver, left)
+        if sol.status != "infeasible":
+            return sol
     return sol
 
 

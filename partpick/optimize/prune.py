@@ -325,6 +325,19 @@ def lower_bounds(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
     return _tree_bounds(problem, option_costs(problem, needs))
 
 
+def change_bounds(problem: Problem) -> dict[str, np.ndarray]:
+    """For each option, a lower bound on the changed roles of any design that holds it.
+
+    The options' change counts (``problem.change_cost``, none in a group
+    without them) added up over the compat tree as :func:`lower_bounds` adds
+    costs; couplings, cuts and stock are left out, so it can only be lower.
+    ``inf`` marks options no design can hold (no compatible child).
+    """
+    own = {g: np.asarray(problem.change_cost[g], float) if g in problem.change_cost else np.zeros(len(grp))
+           for g, grp in problem.groups.items()}
+    return _tree_bounds(problem, own)
+
+
 def _tree_bounds(problem: Problem, own: dict[str, np.ndarray], links: dict[str, _Links] | None = None) -> dict[str, np.ndarray]:
     """:func:`lower_bounds` from given own costs: one per option, or a row per option (one column per scenario)."""
     links = links if links is not None else {g: _Links.of(problem, g) for g, grp in problem.groups.items() if grp.parent is not None}

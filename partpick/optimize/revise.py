@@ -68,13 +68,22 @@ def load_previous(path: str | Path) -> Previous:
     return Previous(label, {r: sorted(v, key=str) for r, v in parts.items()}, foot, cost, total)
 
 
-def _option_roles(result: DesignResult, group: str, option: int) -> dict[str, list[tuple[str, str | None]]]:
+def _option_roles(result: DesignResult, group: str, option: int, named: dict | None = None) -> dict[str, list[tuple[str, str | None]]]:
+    """Each role of an option and its parts as (source, value as printed), sorted.
+
+    ``named`` remembers each (line, role)'s pair across calls (many options
+    share lines).
+    """
     asm = result.assembly
+    named = {} if named is None else named
     out: dict[str, list] = {}
     for line, _q, role in asm.problem.groups[group].usage[option]:
-        src, value = asm.lines[line]
-        out.setdefault(role, []).append((src, value_text(value, role)))
-    return {r: sorted(v, key=str) for r, v in out.items()}
+        part = named.get((line, role))
+        if part is None:
+            src, value = asm.lines[line]
+            part = named[(line, role)] = (src, value_text(value, role))
+        out.setdefault(role, []).append(part)
+    return {r: (v if len(v) == 1 else sorted(v, key=str)) for r, v in out.items()}
 
 
 def _footprints(catalog: Catalog) -> dict[str, tuple[str | None, str | None]]:
@@ -130,8 +139,9 @@ def redesign(
     fps = _footprints(catalog)
     group_roles: dict[str, set[str]] = {}
     option_roles: dict[str, list[dict]] = {}
+    named: dict = {}
     for g, grp in problem.groups.items():
-        option_roles[g] = [_option_roles(base, g, o) for o in range(len(grp))]
+        option_roles[g] = [_option_roles(base, g, o, named) for o in range(len(grp))]
         group_roles[g] = {r for roles in option_roles[g] for r in roles}
     role_group = {r: g for g, rs in group_roles.items() for r in rs}
     prev_by_group: dict[str, set[str]] = {}
@@ -180,14 +190,18 @@ def _footprint_violations(option_roles, previous: Previous, fps, prev_by_group) 
         for g, opts in option_roles.items():
             if r not in prev_by_group.get(g, set()):
                 continue
+            verdict: dict[tuple, bool] = {}  # the options' parts in this role repeat: judge each set once
             bad = []
             for o in opts:
                 parts = o.get(r)
                 if parts is None:
                     bad.append(True)  # the role disappears: the board changes
                     continue
-                new = sorted((fps.get(m, (None, None)) for m, _v in parts), key=str)
-                bad.append(len(new) != len(old) or not all(_drop_in(a, b) for a, b in zip(new, old)))
+                key = tuple(m for m, _v in parts)
+                if key not in verdict:
+                    new = sorted((fps.get(m, (None, None)) for m in key), key=str)
+                    verdict[key] = len(new) != len(old) or not all(_drop_in(a, b) for a, b in zip(new, old))
+                bad.append(verdict[key])
             out[r] = (g, np.array(bad, dtype=bool))
     return out
 
