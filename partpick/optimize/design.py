@@ -94,13 +94,13 @@ def run(
     if result.status != "prepared":
         return result
     for role, mpn in (forced or {}).items():
-        if not _force(result.assembly, role, mpn):
+        if not force_part(result.assembly, role, mpn):
             result.status = "infeasible"
             return result
     return finish(result, solver=solver, time_limit=time_limit)
 
 
-def _force(asm: Assembly, role: str, mpn: str) -> bool:
+def force_part(asm: Assembly, role: str, mpn: str) -> bool:
     """Fix a group's choice to the option that uses ``mpn`` in ``role``; False if none can."""
     p = asm.problem
     group = "stage" if role in ("output_npn", "output_pnp", "bias_source_transistor", "regulator") else role

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.optimize.design import ROLE_ORDER, DesignResult, option_sources, prepare, run
+from partpick.optimize.design import ROLE_ORDER, DesignResult, force_part, option_sources, prepare, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -149,12 +149,36 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
         if reason is not None:
             return WhyAnswer(mpn, roles[0], False, reason)
         role = roles[0]
-    forced = run(spec, catalog, exclude=exclude, solver=solver, forced={role: mpn})
+    forced = _forced_total(best, role, mpn, solver)
     opt = best.solution.total if best.feasible else None
-    if not forced.feasible:
+    if forced is None:
         msg = reason or "it passes its own checks, but no design with it meets the couplings with the other roles (driver, heatsink, diode) from the parts on offer"
         return WhyAnswer(mpn, role, False, msg, None, opt)
-    return WhyAnswer(mpn, role, False, "feasible but not the cheapest", forced.solution.total, opt)
+    return WhyAnswer(mpn, role, False, "feasible but not the cheapest", forced, opt)
+
+
+def _forced_total(best: DesignResult, role: str, mpn: str, solver: str) -> float | None:
+    """The total of the best design that uses ``mpn`` in ``role``; None when there is none.
+
+    The design's own problem is solved again with the part forced (as
+    :func:`~partpick.optimize.design.run` with ``forced`` would build it
+    afresh, from the same spec and catalogue), taking the first search's cost
+    bounds: forcing only adds a rule. Without a design there is none with the
+    part either.
+    """
+    if not best.feasible:
+        return None
+    from partpick.optimize.milp import solve
+
+    problem = best.assembly.problem
+    couplings, fixed = list(problem.couplings), dict(problem.forced)
+    try:
+        if not force_part(best.assembly, role, mpn):
+            return None
+        sol = solve(problem, solver=solver, bounds=best.solution.bounds)
+    finally:
+        problem.couplings, problem.forced = couplings, fixed
+    return None if sol.status == "infeasible" else sol.total
 
 
 def _usable_role(result: DesignResult, mpn: str) -> str | None:
