@@ -36,6 +36,10 @@ class UsageError(Exception):
     """A command-line request that cannot be carried out as asked (exit 2)."""
 
 
+class SizeLimitError(UsageError):
+    """A design would need more configurations than partpick optimises in one run (exit 2, with what to change)."""
+
+
 class SolverError(Exception):
     """The solver is missing, broken, or ran out of time without any design."""
 

@@ -30,7 +30,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import pandas as pd
 
-from partpick.errors import UsageError
+from partpick.errors import SizeLimitError
 from partpick.evaluate.context import Pool, Targets, quiescent_a
 from partpick.evaluate.distinct import distinct_rows
 from partpick.model import bias, dissipation, eseries, regulator, soa, swing, thermal
@@ -60,7 +60,7 @@ CCS_MAX_IC_A = 2.0
 #: resistor options one run builds. The medium benchmark has 123,392 and
 #: 1,192,991 of them and peaks at 621 MiB through evaluation, assembly and the
 #: optimiser's bounds, so these keep a run near 2 GiB; past either the run
-#: stops with a :class:`UsageError` saying what to change, instead of
+#: stops with a :class:`~partpick.errors.SizeLimitError` saying what to change, instead of
 #: exhausting the machine's memory (current sources multiply the core
 #: configurations by every small pair and reference the catalogue holds).
 STAGE_ROWS_MAX = 400_000
@@ -558,7 +558,7 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
         for idx, frame, n_new, make_options, limits in _ccs_variants(spec, pool, targets, core, fams, sink):
             n_opts += n_new
             if offset + len(idx) > STAGE_ROWS_MAX or n_opts > FEED_OPTIONS_MAX:
-                raise UsageError(_too_many_feeds(mode, n, pool))
+                raise SizeLimitError(_too_many_feeds(mode, n, pool))
             opts = make_options()
             frame["core_i"] = idx
             pos = offset + np.arange(len(idx))

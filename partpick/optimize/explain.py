@@ -17,9 +17,26 @@ from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
 
+#: Factor by which the search for the highest feasible power steps down,
+#: designing in full, once the cheap narrowing's answer has no design.
+POWER_STEP_DOWN = 0.9
+
+
 def _with(spec: Spec, section: str, **values) -> Spec:
     sub = getattr(spec, section).model_copy(update=values)
     return spec.model_copy(update={section: sub})
+
+
+def _designs(spec: Spec, catalog: Catalog, exclude: tuple[str, ...]) -> bool:
+    """Whether ``spec`` has any design: the first design the search finds settles it (not proven the cheapest).
+
+    The same answer as ``run(...).feasible``, without proving a design the
+    cheapest, which the searches for what would make a spec feasible never need.
+    """
+    from partpick.optimize.milp import solve
+
+    result = prepare(spec, catalog, exclude=exclude)
+    return result.status == "prepared" and solve(result.assembly.problem, any_design=True).status != "infeasible"
 
 
 def max_feasible_power_w(
@@ -30,15 +47,22 @@ def max_feasible_power_w(
     Bisects between a power that designs and one that does not; None when
     even 1 % of the asked power cannot be built.
     """
+    from partpick.errors import SizeLimitError
+
     hi = spec.output.power_w
     lo = hi / 100.0
 
     def assembles(p: float) -> bool:
         # Necessary for feasibility and cheap: every role has a candidate (no solve).
-        return prepare(_with(spec, "output", power_w=p), catalog, exclude=exclude).status == "prepared"
+        # Too many configurations to optimise counts as assembling: it only
+        # narrows the search, whose answer a full design confirms.
+        try:
+            return prepare(_with(spec, "output", power_w=p), catalog, exclude=exclude).status == "prepared"
+        except SizeLimitError:
+            return True
 
     def ok(p: float) -> bool:
-        return run(_with(spec, "output", power_w=p), catalog, exclude=exclude).feasible
+        return _designs(_with(spec, "output", power_w=p), catalog, exclude)
 
     if not known_infeasible and ok(hi):
         return hi
@@ -52,9 +76,18 @@ def max_feasible_power_w(
         q_lo, q_hi = (mid, q_hi) if assembles(mid) else (q_lo, mid)
     if ok(q_lo):
         return round(q_lo, 3)
-    if not ok(lo):
-        return None
-    hi = q_lo
+    # Full designs from there down, a step at a time, until one designs (a
+    # power near the asked one is the likely answer, and far below it the
+    # current-source variants multiply); then bisect between the two.
+    hi = p = q_lo
+    while True:
+        p = max(lo, p * POWER_STEP_DOWN)
+        if ok(p):
+            break
+        if p == lo:
+            return None
+        hi = p
+    lo = p
     while hi - lo > rel_tol * lo:
         mid = 0.5 * (lo + hi)
         lo, hi = (mid, hi) if ok(mid) else (lo, mid)
@@ -70,7 +103,7 @@ def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
     spread = spec.supply.v_max - spec.supply.v_min
 
     def ok(v: float) -> bool:
-        return run(_with(spec, "supply", v_min=float(v), v_max=float(v + spread)), catalog, exclude=exclude).feasible
+        return _designs(_with(spec, "supply", v_min=float(v), v_max=float(v + spread)), catalog, exclude)
 
     start = spec.supply.v_min
     coarse = 4 * step_v
@@ -87,16 +120,37 @@ def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
     return None
 
 
-def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = ()) -> dict:
-    """What would make an infeasible spec feasible, each point designed in full."""
+def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), notes: list[str] | None = None) -> dict:
+    """What would make an infeasible spec feasible, each point designed in full.
+
+    A search whose trial design passes partpick's size limit
+    (:class:`~partpick.errors.SizeLimitError`: too many current-source
+    variants at some other power or supply) is left out of the answer, which
+    only holds what was searched to the end, and the reason goes to
+    ``notes``; the spec's own answer (infeasible) stands.
+    """
+    from partpick.errors import SizeLimitError
+
     out: dict = {}
-    p = max_feasible_power_w(spec, catalog, exclude, known_infeasible=True)
-    out["highest_feasible_power_w"] = p
-    rail = lowest_feasible_rail(spec, catalog, exclude)
-    out["lowest_feasible_rail_v"] = None if rail is None else {"v_min": rail[0], "v_max": rail[1]}
+    notes = [] if notes is None else notes
+
+    def searched(key: str, what: str, search) -> None:
+        try:
+            out[key] = search()
+        except SizeLimitError as exc:
+            notes.append(f"{what} was not searched: a trial design stopped at the size limit: {exc}")
+
+    searched("highest_feasible_power_w", "the highest feasible power",
+             lambda: max_feasible_power_w(spec, catalog, exclude, known_infeasible=True))
+
+    def rail() -> dict | None:
+        found = lowest_feasible_rail(spec, catalog, exclude)
+        return None if found is None else {"v_min": found[0], "v_max": found[1]}
+
+    searched("lowest_feasible_rail_v", "the lowest feasible supply", rail)
     if spec.supply.arrangement == "single" and spec.supply.regulate == "never":
         trial = _with(spec, "supply", regulate="auto")
-        out["with_pre_regulator"] = bool(run(trial, catalog, exclude=exclude).feasible)
+        searched("with_pre_regulator", "the design with a pre-regulator", lambda: _designs(trial, catalog, exclude))
     return out
 
 

@@ -262,7 +262,7 @@ def tie_weights(problem: Problem) -> dict[str, np.ndarray]:
 
 
 def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None, prune: bool = True,
-          bounds: dict[str, np.ndarray] | None = None) -> Solution:
+          bounds: dict[str, np.ndarray] | None = None, any_design: bool = False) -> Solution:
     """The optimal choice and order; see the module docstring for the formulation.
 
     With ``prune`` (the default) the exact reductions of
@@ -281,6 +281,11 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     still bound it; bounds computed afresh may be tighter and then thin the
     search sooner, but the answer is the same. The solution returned carries
     the bounds it used in :attr:`Solution.bounds`.
+
+    With ``any_design`` (for questions of feasibility alone) the cost-bounded
+    search stops at the first design it finds, which comes back as "not
+    proven optimal" unless the search had proven it; "infeasible" means the
+    same as without. The other objectives search in full.
     """
     tie = tie_weights(problem)
     if not prune:
@@ -293,7 +298,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
     if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
         known = None if bounds is None else {g: np.asarray(bounds[g], float)[fixed[g]] for g in fixed}
-        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known)
+        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known, any_design)
         if sol.bounds is not None:
             sol.bounds = {g: _widened(b, fixed[g], len(problem.groups[g])) for g, b in sol.bounds.items()}
     elif problem.objective == "cost":
@@ -358,7 +363,7 @@ def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str,
 
 
 def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None,
-                   bound: dict[str, np.ndarray] | None = None) -> Solution:
+                   bound: dict[str, np.ndarray] | None = None, any_design: bool = False) -> Solution:
     """Solve on the options whose cost bound is below a threshold T, widening T until the optimum is proven.
 
     Every design holding an option left out costs more than T; once the
@@ -380,14 +385,14 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
 
     ``bound`` is the cost bounds when the caller has them (see
     :func:`solve`); otherwise they are computed here. The solution returned
-    carries them.
+    carries them. ``any_design``: see :func:`solve`.
     """
     deadline = None if time_limit is None else _clock() + time_limit
     if bound is None:
         from partpick.optimize.prune import design_bounds
 
         bound = design_bounds(problem)
-    sol = _widen(problem, tie, solver, time_limit, deadline, bound)
+    sol = _widen(problem, tie, solver, time_limit, deadline, bound, any_design)
     sol.bounds = bound
     return sol
 
@@ -431,8 +436,8 @@ def _solve_fewest_changes(problem: Problem, tie: dict[str, np.ndarray], solver: 
 
 
 def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None, deadline: float | None,
-           bound: dict[str, np.ndarray]) -> Solution:
-    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``."""
+           bound: dict[str, np.ndarray], any_design: bool = False) -> Solution:
+    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``; ``any_design``: see :func:`solve`."""
     from partpick.optimize import prune as reduce
 
     floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
@@ -460,6 +465,9 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                 return _out_of_time(best, time_limit)
             if best is None and by_set is not None and sum(len(k) for k in keep.values()) >= FIRST_DESIGN_MIN_OPTIONS:
                 best = _first_design(problem, keep, tie, solver, by_set, left)
+                if best is not None and any_design:
+                    best.status = "not proven optimal"
+                    return best
                 if best is not None:
                     reach = objective_value(problem, best) + _tie_margin(problem, best)
                     if threshold < reach <= floor + GROWTH * (threshold - floor):
@@ -486,6 +494,9 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                 best = sol
                 value = objective_value(problem, sol)
                 if value + _tie_margin(problem, sol) <= threshold or threshold >= top:
+                    return sol
+                if any_design:
+                    sol.status = "not proven optimal"
                     return sol
                 threshold = value + _tie_margin(problem, sol)
                 continue
