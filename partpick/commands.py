@@ -192,9 +192,17 @@ def run_sweep(args: argparse.Namespace, term: Terminal) -> int:
     for p in points:
         if p.feasible:
             t.add_row(f"{p.value:g}", f"{p.total:.2f}", p.output_pair, p.driver, p.heatsink, f"{p.tightest} {100 * p.tightest_fraction:.0f} %")
+        elif p.skipped:
+            t.add_row(f"{p.value:g}", Text("not designed", style="yellow"), "", "", "", "")
         else:
             t.add_row(f"{p.value:g}", Text("infeasible", style="red"), "", "", "", "")
     term.always(t)
+    skipped = [p for p in points if p.skipped]
+    if skipped:
+        from partpick.report.console import labelled
+
+        values = ", ".join(f"{p.value:g}" for p in skipped)
+        term.always(labelled("warning:", "yellow", f"not designed at {values} {unit}: {skipped[0].skipped}"))
     if args.plot:
         plot_sweep(points, quantity, args.plot, cur)
         term.print(f"wrote {args.plot}")

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.errors import UsageError
+from partpick.errors import SizeLimitError, UsageError
 from partpick.optimize.design import run
 from partpick.optimize.explain import _with
 from partpick.spec import Spec
@@ -51,13 +51,28 @@ class SweepPoint:
     heatsink: str | None
     tightest: str | None
     tightest_fraction: float | None
+    #: Why the point was not designed (its run met the size limit), else None.
+    skipped: str | None = None
 
 
 def sweep(spec: Spec, catalog: Catalog, quantity: str, values: np.ndarray, solver: str = "cbc") -> list[SweepPoint]:
-    """The optimal design at each point (each point is a full, independent design run)."""
+    """The optimal design at each point (each point is a full, independent design run).
+
+    A point whose run meets partpick's size limit (:class:`SizeLimitError`:
+    at a lower power, say, far more current-source variants pass) is kept
+    with the reason in ``skipped``, neither feasible nor infeasible, and the
+    sweep goes on; when every point meets it, the first such error is raised
+    (nothing was designed).
+    """
     points = []
+    limited = None
     for v in values:
-        r = run(spec_at(spec, quantity, float(v)), catalog, solver=solver)
+        try:
+            r = run(spec_at(spec, quantity, float(v)), catalog, solver=solver)
+        except SizeLimitError as exc:
+            limited = limited or exc
+            points.append(SweepPoint(float(v), False, None, None, None, None, None, None, str(exc)))
+            continue
         if not r.feasible:
             points.append(SweepPoint(float(v), False, None, None, None, None, None, None))
             continue
@@ -70,6 +85,8 @@ def sweep(spec: Spec, catalog: Catalog, quantity: str, values: np.ndarray, solve
             r.assembly.tables["heatsink"].iloc[r.solution.choice["heatsink"]]["mpn"],
             f"{role} {margin.name}", round(margin.fraction, 4),
         ))
+    if limited is not None and all(p.skipped for p in points):
+        raise limited
     return points
 
 
@@ -88,7 +105,7 @@ def plot_sweep(points: list[SweepPoint], quantity: str, path: str, currency: str
     fig, ax = plt.subplots(figsize=(8, 4.5), dpi=100)
     ok = [p for p in points if p.feasible]
     ax.plot([p.value for p in ok], [p.total for p in ok], "o-", color="tab:blue", label="optimal total")
-    bad = [p for p in points if not p.feasible]
+    bad = [p for p in points if not p.feasible and p.skipped is None]
     if bad:
         y0 = min([p.total for p in ok], default=0.0)
         ax.plot([p.value for p in bad], [y0] * len(bad), "x", color="tab:red", markersize=9, label="infeasible")
