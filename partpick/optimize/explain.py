@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
+from partpick.errors import SizeLimitError
 from partpick.optimize.design import ROLE_ORDER, DesignResult, force_part, option_sources, prepare, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
@@ -47,8 +48,6 @@ def max_feasible_power_w(
     Bisects between a power that designs and one that does not; None when
     even 1 % of the asked power cannot be built.
     """
-    from partpick.errors import SizeLimitError
-
     hi = spec.output.power_w
     lo = hi / 100.0
 
@@ -121,7 +120,7 @@ def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
 
 
 def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), notes: list[str] | None = None) -> dict:
-    """What would make an infeasible spec feasible, each point designed in full.
+    """What would make an infeasible spec feasible, each trial searched for a design (:func:`_designs`).
 
     A search whose trial design passes partpick's size limit
     (:class:`~partpick.errors.SizeLimitError`: too many current-source
@@ -129,8 +128,6 @@ def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), not
     only holds what was searched to the end, and the reason goes to
     ``notes``; the spec's own answer (infeasible) stands.
     """
-    from partpick.errors import SizeLimitError
-
     out: dict = {}
     notes = [] if notes is None else notes
 
