@@ -68,7 +68,7 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
         rep = build_report(result, catalog.file_sha256, args.solver)
         if not term.quiet:
             term.print("No feasible design; searching what would make it feasible ...")
-        rep["suggestions"] = suggestions(result.spec, catalog, tuple(args.exclude), notes=rep["warnings"])
+        rep["suggestions"] = suggestions(result.spec, catalog, tuple(args.exclude), notes=rep["warnings"], time_limit=limit)
         write_outputs(term, args, result, rep)
         render_infeasible(term, rep)
         return EXIT_INFEASIBLE

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.errors import SizeLimitError
+from partpick.errors import SizeLimitError, SolverTimeout
 from partpick.optimize.design import ROLE_ORDER, DesignResult, force_part, option_sources, prepare, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
@@ -28,20 +28,23 @@ def _with(spec: Spec, section: str, **values) -> Spec:
     return spec.model_copy(update={section: sub})
 
 
-def _designs(spec: Spec, catalog: Catalog, exclude: tuple[str, ...]) -> bool:
+def _designs(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], time_limit: float | None = None) -> bool:
     """Whether ``spec`` has any design: the first design the search finds settles it (not proven the cheapest).
 
     The same answer as ``run(...).feasible``, without proving a design the
     cheapest, which the searches for what would make a spec feasible never need.
+    A search that finds nothing within ``time_limit`` raises
+    :class:`~partpick.errors.SolverTimeout` (neither answer is known).
     """
     from partpick.optimize.milp import solve
 
     result = prepare(spec, catalog, exclude=exclude)
-    return result.status == "prepared" and solve(result.assembly.problem, any_design=True).status != "infeasible"
+    return result.status == "prepared" and solve(result.assembly.problem, time_limit=time_limit, any_design=True).status != "infeasible"
 
 
 def max_feasible_power_w(
-    spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), rel_tol: float = 0.01, known_infeasible: bool = False
+    spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), rel_tol: float = 0.01, known_infeasible: bool = False,
+    time_limit: float | None = None,
 ) -> float | None:
     """Highest power per channel (within ``rel_tol``) this catalogue and supply can deliver.
 
@@ -61,7 +64,7 @@ def max_feasible_power_w(
             return True
 
     def ok(p: float) -> bool:
-        return _designs(_with(spec, "output", power_w=p), catalog, exclude)
+        return _designs(_with(spec, "output", power_w=p), catalog, exclude, time_limit)
 
     if not known_infeasible and ok(hi):
         return hi
@@ -93,7 +96,8 @@ def max_feasible_power_w(
     return round(lo, 3)
 
 
-def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), step_v: float = 0.5, span_v: float = 40.0) -> tuple[float, float] | None:
+def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), step_v: float = 0.5, span_v: float = 40.0,
+                         time_limit: float | None = None) -> tuple[float, float] | None:
     """The lowest (v_min, v_max), keeping the spec's spread, on a ``step_v`` grid that designs.
 
     Scans upward from the spec's v_min (a lower rail is tried first, up to
@@ -102,7 +106,7 @@ def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
     spread = spec.supply.v_max - spec.supply.v_min
 
     def ok(v: float) -> bool:
-        return _designs(_with(spec, "supply", v_min=float(v), v_max=float(v + spread)), catalog, exclude)
+        return _designs(_with(spec, "supply", v_min=float(v), v_max=float(v + spread)), catalog, exclude, time_limit)
 
     start = spec.supply.v_min
     coarse = 4 * step_v
@@ -119,14 +123,17 @@ def lowest_feasible_rail(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] 
     return None
 
 
-def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), notes: list[str] | None = None) -> dict:
+def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), notes: list[str] | None = None,
+                time_limit: float | None = None) -> dict:
     """What would make an infeasible spec feasible, each trial searched for a design (:func:`_designs`).
 
     A search whose trial design passes partpick's size limit
     (:class:`~partpick.errors.SizeLimitError`: too many current-source
     variants at some other power or supply) is left out of the answer, which
     only holds what was searched to the end, and the reason goes to
-    ``notes``; the spec's own answer (infeasible) stands.
+    ``notes``; the spec's own answer (infeasible) stands. Each trial's
+    search gets ``time_limit`` (the command's ``--time-limit``); a search with
+    a trial that finds nothing by then is left out and named the same way.
     """
     out: dict = {}
     notes = [] if notes is None else notes
@@ -136,18 +143,20 @@ def suggestions(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), not
             out[key] = search()
         except SizeLimitError as exc:
             notes.append(f"{what} was not searched: a trial design stopped at the size limit: {exc}")
+        except SolverTimeout:
+            notes.append(f"{what} was not searched to the end: a trial design's search found nothing within the time limit of {time_limit:g} s")
 
     searched("highest_feasible_power_w", "the highest feasible power",
-             lambda: max_feasible_power_w(spec, catalog, exclude, known_infeasible=True))
+             lambda: max_feasible_power_w(spec, catalog, exclude, known_infeasible=True, time_limit=time_limit))
 
     def rail() -> dict | None:
-        found = lowest_feasible_rail(spec, catalog, exclude)
+        found = lowest_feasible_rail(spec, catalog, exclude, time_limit=time_limit)
         return None if found is None else {"v_min": found[0], "v_max": found[1]}
 
     searched("lowest_feasible_rail_v", "the lowest feasible supply", rail)
     if spec.supply.arrangement == "single" and spec.supply.regulate == "never":
         trial = _with(spec, "supply", regulate="auto")
-        searched("with_pre_regulator", "the design with a pre-regulator", lambda: _designs(trial, catalog, exclude))
+        searched("with_pre_regulator", "the design with a pre-regulator", lambda: _designs(trial, catalog, exclude, time_limit))
     return out
 
 

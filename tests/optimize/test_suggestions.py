@@ -95,3 +95,19 @@ def test_an_infeasible_spec_stays_exit_4_when_the_searches_meet_the_size_limit(m
     skipped = [w for w in rep["warnings"] if "was not searched" in w]
     assert skipped and all("size limit" in w for w in skipped)
     assert not {"highest_feasible_power_w", "lowest_feasible_rail_v"} <= set(rep["suggestions"])
+
+
+def test_a_trial_that_finds_nothing_in_time_leaves_its_search_out(catalog) -> None:
+    # With a budget that is over before the first solve, no trial can say
+    # whether it has a design: both searches are left out and named, never
+    # answered with a guess.
+    spec = explain._with(load_spec(BENCH), "output", power_w=30.0)
+    notes: list[str] = []
+    out = explain.suggestions(spec, catalog, (), notes, time_limit=1e-6)
+    assert out == {}
+    assert notes == [
+        "the highest feasible power was not searched to the end: a trial design's search found nothing within the time limit of 1e-06 s",
+        "the lowest feasible supply was not searched to the end: a trial design's search found nothing within the time limit of 1e-06 s",
+    ]
+    # With time enough, the same searches answer (26.022 W, 25 V: see the scan above).
+    assert explain.suggestions(spec, catalog, (), [], time_limit=60.0)["lowest_feasible_rail_v"] == {"v_min": 25.0, "v_max": 27.0}
