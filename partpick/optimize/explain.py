@@ -228,16 +228,12 @@ def _forced_total(best: DesignResult, role: str, mpn: str, solver: str) -> float
     """
     if not best.feasible:
         return None
-    from partpick.optimize.milp import solve
+    from partpick.optimize.milp import rules_kept, solve
 
-    problem = best.assembly.problem
-    couplings, fixed = list(problem.couplings), dict(problem.forced)
-    try:
+    with rules_kept(best.assembly.problem) as problem:
         if not force_part(best.assembly, role, mpn):
             return None
         sol = solve(problem, solver=solver, bounds=best.solution.bounds)
-    finally:
-        problem.couplings, problem.forced = couplings, fixed
     return None if sol.status == "infeasible" else sol.total
 
 
@@ -290,24 +286,24 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
     out = [first] if first.feasible else []
     if not out:
         return out
-    from partpick.optimize.milp import solve
+    from partpick.optimize.milp import rules_kept, solve
     from partpick.optimize.design import check_chosen
 
     problem = first.assembly.problem
     k = first.assembly.tables["stage"]
-    for _ in range(n - 1):
-        last = out[-1].solution.choice
-        same_pair = list(np.flatnonzero(k["pair_i"].to_numpy() == k["pair_i"].iloc[last["stage"]]))
-        problem.forbidden.append({"stage": same_pair, "driver_opamp": [last["driver_opamp"]]})
-        try:
-            sol = solve(problem, solver=solver, time_limit=time_limit, bounds=first.solution.bounds)
-        except SolverTimeout:
-            break
-        if sol.status == "infeasible":
-            break
-        check = check_chosen(first.spec, first.pool, first.targets, first.stage, first.assembly, sol.choice)
-        out.append(DesignResult(first.spec, first.pool, first.targets, first.stage, first.assembly, sol, check, "ok" if sol.status == "optimal" else sol.status, list(first.warnings)))
-    problem.forbidden.clear()
+    with rules_kept(problem):
+        for _ in range(n - 1):
+            last = out[-1].solution.choice
+            same_pair = list(np.flatnonzero(k["pair_i"].to_numpy() == k["pair_i"].iloc[last["stage"]]))
+            problem.forbidden.append({"stage": same_pair, "driver_opamp": [last["driver_opamp"]]})
+            try:
+                sol = solve(problem, solver=solver, time_limit=time_limit, bounds=first.solution.bounds)
+            except SolverTimeout:
+                break
+            if sol.status == "infeasible":
+                break
+            check = check_chosen(first.spec, first.pool, first.targets, first.stage, first.assembly, sol.choice)
+            out.append(DesignResult(first.spec, first.pool, first.targets, first.stage, first.assembly, sol, check, "ok" if sol.status == "optimal" else sol.status, list(first.warnings)))
     return out
 
 
@@ -331,21 +327,19 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         return None
     from partpick.errors import SolverTimeout
     from partpick.evaluate.stage import feed_failure
-    from partpick.optimize.milp import Coupling, solve
+    from partpick.optimize.milp import Coupling, rules_kept, solve
 
     chosen = result.check.design["bias_feed"]
     other = "resistor" if chosen == "current_source" else "current_source"
     k = result.assembly.tables["stage"]
     mask = (k["feed"].to_numpy() == other).astype(float)
     if mask.any():
-        problem = result.assembly.problem
-        problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
-        try:
-            alt = solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
-        except SolverTimeout:
-            return None
-        finally:
-            problem.couplings.pop()
+        with rules_kept(result.assembly.problem) as problem:
+            problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
+            try:
+                alt = solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
+            except SolverTimeout:
+                return None
         if alt.status != "infeasible":
             extra = alt.total - result.solution.total
             best = "best" if alt.status == "optimal" else f"cheapest (found within {time_limit:g} s, not proven optimal)"

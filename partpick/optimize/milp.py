@@ -28,6 +28,8 @@ import os
 import shutil
 import tempfile
 import time
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -306,6 +308,24 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     else:
         sol = _solve_reduced(sub, reduce.dominated(sub, sub_tie), sub_tie, solver, time_limit)
     return _lift(sol, fixed)
+
+
+@contextmanager
+def rules_kept(problem: Problem) -> Iterator[Problem]:
+    """The problem's couplings, forced options and cuts put back as they are now on leaving, whatever happened.
+
+    A re-solve of a design's own problem (the other feed, an alternative,
+    a part forced or left out) adds rules to it for a while; the lists are
+    restored in place.
+    """
+    couplings, forced, forbidden = list(problem.couplings), dict(problem.forced), list(problem.forbidden)
+    try:
+        yield problem
+    finally:
+        problem.couplings[:] = couplings
+        problem.forced.clear()
+        problem.forced.update(forced)
+        problem.forbidden[:] = forbidden
 
 
 def _meeting_own_couplings(problem: Problem, keep: dict[str, np.ndarray]) -> dict[str, np.ndarray]:

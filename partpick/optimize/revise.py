@@ -17,8 +17,8 @@ import numpy as np
 
 from partpick.catalog import Catalog
 from partpick.errors import InputError, Problem
-from partpick.optimize.design import DesignResult, finish, prepare, usable_sources
-from partpick.optimize.milp import Coupling
+from partpick.optimize.design import DesignResult, finish, option_sources, prepare, usable_sources
+from partpick.optimize.milp import Coupling, rules_kept
 from partpick.report.build import SCHEMA, value_text
 from partpick.spec import Spec
 
@@ -277,7 +277,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     families = set(result.pool.passives["family"])
     risks = []
     seen: set[str] = set()
-    holders: dict[str, dict[str, set[int]]] | None = None  # part -> group -> options using it, made on first need
+    holders = _holders(result)
     for g, o in sol.choice.items():
         for line, _q, role in problem.groups[g].usage[o]:
             src = asm.lines[line][0]
@@ -286,21 +286,17 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
             seen.add(src)
             need = sol.need[line]
             stocked = sorted({off.supplier for off in problem.line_offers.get(line, []) if off.stock >= need})
-            saved = list(problem.couplings)
-            if holders is None:
-                holders = _holders(problem, asm.lines)
-            for grp_name, opts in holders[src].items():
-                bad = np.zeros(len(problem.groups[grp_name]))
-                bad[list(opts)] = 1.0
-                problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
             from partpick.optimize.milp import solve
 
-            try:
-                alt = solve(problem, solver=solver, time_limit=time_limit, bounds=sol.bounds)
-            except SolverTimeout:
-                alt = None
-            finally:
-                problem.couplings = saved
+            with rules_kept(problem):
+                for grp_name, opts in holders[src].items():
+                    bad = np.zeros(len(problem.groups[grp_name]))
+                    bad[list(opts)] = 1.0
+                    problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
+                try:
+                    alt = solve(problem, solver=solver, time_limit=time_limit, bounds=sol.bounds)
+                except SolverTimeout:
+                    alt = None
             total = replacement = None
             if alt is None:
                 replacement = f"no design found within {time_limit:g} s"
@@ -315,11 +311,11 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     return risks
 
 
-def _holders(problem, lines: dict) -> dict[str, dict[str, set[int]]]:
-    """For each part (a line's source), the options of each group that use it: one pass over every usage."""
+def _holders(result: DesignResult) -> dict[str, dict[str, set[int]]]:
+    """For each part (mpn or family), the options of each group that use it: one pass over every option."""
     out: dict[str, dict[str, set[int]]] = {}
-    for g, grp in problem.groups.items():
-        for o, usage in enumerate(grp.usage):
-            for line, _q, _r in usage:
-                out.setdefault(lines[line][0], {}).setdefault(g, set()).add(o)
+    for g, grp in result.assembly.problem.groups.items():
+        for o in range(len(grp)):
+            for src, _q, _r in option_sources(result, g, o):
+                out.setdefault(src, {}).setdefault(g, set()).add(o)
     return out

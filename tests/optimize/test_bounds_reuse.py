@@ -86,3 +86,19 @@ def test_a_re_solve_takes_the_bounds_it_is_given(monkeypatch) -> None:
     assert brute_force(not_b).cost == pytest.approx(4.0)
     # The bounds handed back are the ones it used, in the whole problem's indices.
     assert again.bounds["g0"].tolist() == [np.inf, np.inf, pytest.approx(4.0)]
+
+
+def test_rules_added_for_a_re_solve_are_taken_back_whatever_happens() -> None:
+    from partpick.optimize.milp import rules_kept
+
+    g0 = Group("g0", ["a", "b"], [[("A", 1.0, "r")], [("B", 1.0, "r")]])
+    keep = Coupling("keep", {"g0": np.array([1.0, 1.0])}, ">=", 1.0)
+    p = Problem({"g0": g0}, [keep], {}, {"S": 0.0}, 1.0, forced={"g0": 0}, forbidden=[{"g0": [1]}])
+    lists = (p.couplings, p.forced, p.forbidden)
+    with pytest.raises(RuntimeError), rules_kept(p):
+        p.couplings.append(Coupling("added", {"g0": np.array([0.0, 1.0])}, "<=", 0.0))
+        p.forced["g0"] = 1
+        p.forbidden.append({"g0": [0]})
+        raise RuntimeError("the solve failed")
+    assert (p.couplings, p.forced, p.forbidden) == ([keep], {"g0": 0}, [{"g0": [1]}])
+    assert all(a is b for a, b in zip((p.couplings, p.forced, p.forbidden), lists))  # restored in place
