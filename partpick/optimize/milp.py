@@ -731,23 +731,18 @@ def _link(m: pulp.LpProblem, name: str, big: list[pulp.LpVariable], small: list[
     return made
 
 
-def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc", time_limit: float | None = None,
-                start: Solution | None = None) -> Solution:
-    """Build the MILP of the whole problem, with the given tie-break weights, and solve it.
+def _choice_rows(m: pulp.LpProblem, problem: Problem) -> tuple[dict[str, list[pulp.LpVariable]], list]:
+    """The choice part of the model: one binary per option, one option per group, links, couplings and cuts.
 
-    ``start``, a feasible solution of this problem (choice in its indices), is
-    handed to the solver as its first incumbent, so the search prunes against
-    it from the first node.
+    Returns the binaries per group and the class variables of the links,
+    each with its group and members (for a start design).
     """
-    m = pulp.LpProblem("partpick", pulp.LpMinimize)
     classes: list[tuple[pulp.LpVariable, str, list[int]]] = []
     x: dict[str, list[pulp.LpVariable]] = {}
-    tie_terms = []
     for gname, g in problem.groups.items():
         vars_ = [pulp.LpVariable(f"x_{gname}_{i}", cat="Binary") for i in range(len(g))]
         x[gname] = vars_
         m += pulp.LpAffineExpression([(v, 1.0) for v in vars_]) == 1, f"one_{gname}"
-        tie_terms += [(v, float(w)) for v, w in zip(vars_, tie[gname]) if w]
         if gname in problem.forced:
             m += vars_[problem.forced[gname]] == 1, f"forced_{gname}"
     for gname, g in problem.groups.items():
@@ -770,24 +765,57 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         m += (expr <= c.rhs) if c.sense == "<=" else (expr >= c.rhs), f"couple_{c_i}"
     for n_i, cut in enumerate(problem.forbidden):
         m += pulp.lpSum(x[g][o] for g, opts in cut.items() for o in opts) <= len(cut) - 1, f"nogood_{n_i}"
+    return x, classes
 
-    # Line needs as expressions of the choice.
-    need_expr: dict[str, list[tuple[pulp.LpVariable, float]]] = {}
-    users: dict[str, list[pulp.LpVariable]] = {}
-    users_by_group: dict[str, dict[str, dict[str, pulp.LpVariable]]] = {}
-    # Largest need of each line: the sum over groups of each group's largest use.
+
+def _line_units(problem: Problem, x: dict[str, list[pulp.LpVariable]]
+                ) -> tuple[dict[str, list[tuple[pulp.LpVariable, float]]], dict[str, dict[str, float]]]:
+    """Each line's need as terms of the choice, and each group's largest use of each line.
+
+    ``need[line]`` holds one ``(binary, units)`` term per option using the
+    line, its units summed over the option's roles: an option may use one
+    line in two roles (a gain pair of equal values), and PuLP keeps only the
+    last coefficient of a variable listed twice in an expression. Units are
+    rounded so that float noise cannot demand one unit more (2 x 25 x 1.04
+    is 52); the need row then has an exact right side. ``most[line][group]``
+    is the largest option total of the group, so ``sum(most[line].values())``
+    bounds the line's need in any design.
+    """
+    per_option: dict[str, dict[str, tuple[pulp.LpVariable, float]]] = {}
     most: dict[str, dict[str, float]] = {}
     for gname, g in problem.groups.items():
         for i, usage in enumerate(g.usage):
+            v = x[gname][i]
             for line, per_board, _role in usage:
-                # Rounded so that float noise cannot demand one unit more
-                # (2 x 25 x 1.04 is 52); the need row then has an exact right side.
                 units = round(per_board * problem.factor, 6)
-                need_expr.setdefault(line, []).append((x[gname][i], units))
-                users.setdefault(line, []).append(x[gname][i])
-                users_by_group.setdefault(line, {}).setdefault(gname, {})[x[gname][i].name] = x[gname][i]
+                terms = per_option.setdefault(line, {})
+                total = terms[v.name][1] + units if v.name in terms else units
+                terms[v.name] = (v, total)
                 per_group = most.setdefault(line, {})
-                per_group[gname] = max(per_group.get(gname, 0.0), units)
+                per_group[gname] = max(per_group.get(gname, 0.0), total)
+    return {line: list(terms.values()) for line, terms in per_option.items()}, most
+
+
+def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc", time_limit: float | None = None,
+                start: Solution | None = None) -> Solution:
+    """Build the MILP of the whole problem, with the given tie-break weights, and solve it.
+
+    ``start``, a feasible solution of this problem (choice in its indices), is
+    handed to the solver as its first incumbent, so the search prunes against
+    it from the first node.
+    """
+    m = pulp.LpProblem("partpick", pulp.LpMinimize)
+    x, classes = _choice_rows(m, problem)
+    tie_terms = [(v, float(w)) for gname, vars_ in x.items() for v, w in zip(vars_, tie[gname]) if w]
+
+    # Line needs as expressions of the choice.
+    need_expr, most = _line_units(problem, x)
+    users = {line: [v for v, _a in terms] for line, terms in need_expr.items()}
+    users_by_group: dict[str, dict[str, dict[str, pulp.LpVariable]]] = {}
+    for gname in problem.groups:
+        for i, usage in enumerate(problem.groups[gname].usage):
+            for line, _per_board, _role in usage:
+                users_by_group.setdefault(line, {}).setdefault(gname, {})[x[gname][i].name] = x[gname][i]
     suppliers = sorted(problem.fees)
     y = {s: pulp.LpVariable(f"y_{k}", cat="Binary") for k, s in enumerate(suppliers)}
     cost_terms = [(y[s], problem.fees[s]) for s in suppliers]
@@ -852,11 +880,8 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             # purchase costs at least that option's cheapest purchase. Valid
             # for every integer plan; it keeps the relaxation from buying
             # fractions of a high break at its low price.
-            floor = {}
-            for v, a in need_expr[line]:
-                floor[v.name] = (v, floor.get(v.name, (v, 0.0))[1] + a)
             spend = [(q, off.unit_price) for _l, off, q in buy[first_buy:]]
-            least = [(v, -c) for v, c in ((v, cheapest_purchase(offers, ceil_units(a))) for v, a in floor.values()) if math.isfinite(c)]
+            least = [(v, -c) for v, c in ((v, cheapest_purchase(offers, ceil_units(a))) for v, a in need_expr[line]) if math.isfinite(c)]
             m += pulp.LpAffineExpression(spend + least) >= 0, f"spend_{l_i}"
     cost = pulp.LpAffineExpression(cost_terms)
     tie_expr = pulp.LpAffineExpression(tie_terms)

@@ -402,3 +402,21 @@ v_max = 22.0
     result = run(spec, load_catalog(CATALOG_DIR))
     assert result.status == "infeasible"
     assert not result.feasible
+
+
+def test_equal_gain_pair_values_are_bought_for_both_roles(catalog) -> None:
+    # Gain 2 (model s.9: 1 + Rf/Rg, so Rf = Rg): 14.14 V rms out of 25 W into 8 ohm
+    # from a 7.07 V rms input. Both resistors are one line, used twice per channel:
+    # 2 channels x 4 boards x 2 = 16 units must be ordered, not 8.
+    spec = load_spec(ROOT / "examples" / "bench_2x25w_split.toml")
+    spec = spec.model_copy(update={"output": spec.output.model_copy(update={"input_vrms": 7.07})})
+    result = run(spec, catalog)
+    assert_sound(result)
+    rows = result.assembly.tables["gain_pair"].iloc[result.solution.choice["gain_pair"]]
+    rf, rg = rows["values"]
+    assert rf == rg
+    line = next(line for line, _q, role in result.assembly.problem.groups["gain_pair"].usage[result.solution.choice["gain_pair"]]
+                if role == "feedback_resistor")
+    assert result.solution.need[line] == 16
+    assert sum(p.qty for p in result.solution.purchases if p.line == line) >= 16
+    assert_exact(result)

@@ -424,8 +424,10 @@ def assert_matches(problem: Problem, exact: Optimum | None, objective: str) -> N
 
 
 @st.composite
-def problems(draw) -> Problem:
+def problems(draw, repeat: bool = False) -> Problem:
     """Small random problems: 2-4 groups of 1-4 options, a parent link, couplings, shared lines.
+
+    With ``repeat``, some options use one line in two roles (their units add up).
 
     A hidden reference choice is drawn first and the compatibility lists,
     couplings, forced option and no-good cut are drawn so that it stays
@@ -440,6 +442,8 @@ def problems(draw) -> Problem:
         usage = []
         for _o in range(size):
             used = draw(st.lists(st.sampled_from(lines), min_size=0, max_size=2, unique=True))
+            if repeat and used and draw(st.integers(0, 2)) == 0:
+                used.append(used[0])  # one line in two roles of one option (a gain pair of equal values)
             usage.append([(l, float(draw(st.sampled_from([0.5, 1.0, 2.0, 3.0]))), f"role{gi}") for l in used])
         groups[f"g{gi}"] = Group(f"g{gi}", [f"g{gi}-{o}" for o in range(size)], usage)
     names = list(groups)
@@ -512,6 +516,18 @@ def test_milp_equals_brute_force_cost(problem: Problem) -> None:
 @given(problems())
 def test_milp_equals_brute_force_lines(problem: Problem) -> None:
     assert_matches(problem, brute_force(problem, "lines"), "lines")
+
+
+@settings(**SETTINGS)
+@given(problems(repeat=True), st.sampled_from(["cost", "lines"]))
+def test_an_option_using_a_line_in_two_roles_buys_both(problem: Problem, objective: str) -> None:
+    # The need row counts both uses (the brute force adds them up, as line_need does).
+    exact = brute_force(problem, objective)
+    assert_matches(problem, exact, objective)
+    whole = solve(replace(problem, objective=objective), "cbc", prune=False)
+    if exact is not None:
+        assert_plan_valid(problem, whole)
+        assert whole.total == pytest.approx(exact.cost, abs=COST_TOL)
 
 
 @settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
