@@ -36,10 +36,10 @@ def _designs(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], time_limit:
     A search that finds nothing within ``time_limit`` raises
     :class:`~partpick.errors.SolverTimeout` (neither answer is known).
     """
-    from partpick.optimize.milp import solve
+    from partpick.optimize.milp import has_design
 
     result = prepare(spec, catalog, exclude=exclude)
-    return result.status == "prepared" and solve(result.assembly.problem, time_limit=time_limit, any_design=True).status != "infeasible"
+    return result.status == "prepared" and has_design(result.assembly.problem, time_limit=time_limit)
 
 
 def max_feasible_power_w(

@@ -264,7 +264,7 @@ def tie_weights(problem: Problem) -> dict[str, np.ndarray]:
 
 
 def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None, prune: bool = True,
-          bounds: dict[str, np.ndarray] | None = None, any_design: bool = False) -> Solution:
+          bounds: dict[str, np.ndarray] | None = None) -> Solution:
     """The optimal choice and order; see the module docstring for the formulation.
 
     With ``prune`` (the default) the exact reductions of
@@ -284,10 +284,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     search sooner, but the answer is the same. The solution returned carries
     the bounds it used in :attr:`Solution.bounds`.
 
-    With ``any_design`` (for questions of feasibility alone) the cost-bounded
-    search stops at the first design it finds, which comes back as "not
-    proven optimal" unless the search had proven it; "infeasible" means the
-    same as without. The other objectives search in full.
+    Whether any design exists at all is :func:`has_design`'s question.
     """
     tie = tie_weights(problem)
     if not prune:
@@ -300,7 +297,7 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
     if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
         known = None if bounds is None else {g: np.asarray(bounds[g], float)[fixed[g]] for g in fixed}
-        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known, any_design)
+        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known)
         if sol.bounds is not None:
             sol.bounds = {g: _widened(b, fixed[g], len(problem.groups[g])) for g, b in sol.bounds.items()}
     elif problem.objective == "cost":
@@ -308,6 +305,92 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     else:
         sol = _solve_reduced(sub, reduce.dominated(sub, sub_tie), sub_tie, solver, time_limit)
     return _lift(sol, fixed)
+
+
+def has_design(problem: Problem, solver: str = "cbc", time_limit: float | None = None) -> bool:
+    """Whether the problem has any design at all, whatever it costs; exactly ``solve(problem).status != "infeasible"``.
+
+    Each question goes to :func:`_any_design_model`, which leaves prices and
+    fees out. Designs are looked for first among the options whose cost
+    bound (:func:`~partpick.optimize.prune.design_bounds`) lies below a
+    threshold, on :func:`_solve_bounded`'s schedule: a feasible spec
+    usually has a design among its cheap options, and those few solve at
+    once. A restriction's design is a design of the whole problem; the
+    answer "none" needs the last threshold, which holds every option any
+    design can hold. ``time_limit`` bounds the whole search; a search that
+    finds neither answer by then raises :class:`SolverTimeout`.
+    """
+    from partpick.optimize import prune as reduce
+
+    deadline = None if time_limit is None else _clock() + time_limit
+    fixed = _meeting_own_couplings(problem, reduce.forced_only(problem))
+    if not all(len(k) for k in fixed.values()):
+        return False
+    sub = reduce.restrict(problem, fixed)
+    bound = reduce.design_bounds(replace(sub, objective="cost", change_cost={}, change_weight=None))
+    finite = [b[np.isfinite(b)] for b in bound.values()]
+    if not all(len(f) for f in finite):
+        return False
+    floor = max(float(f.min()) for f in finite)
+    top = max(float(f.max()) for f in finite)
+    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
+    asked = 0  # options in the last set solved: sets only grow, so a set of that size is the same set
+    while True:
+        inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
+        size = sum(len(k) for k in inside.values())
+        if all(len(k) for k in inside.values()) and size > asked:
+            left = None if deadline is None else deadline - _clock()
+            if left is not None and left <= 0:
+                raise SolverTimeout(time_limit)
+            if _any_design_model(reduce.restrict(sub, inside), solver, left):
+                return True
+            asked = size
+        if threshold >= top:
+            return False
+        threshold = min(top, floor + GROWTH * (threshold - floor))
+
+
+def _any_design_model(problem: Problem, solver: str, time_limit: float | None) -> bool:
+    """Whether the problem has a design, solved without prices or fees.
+
+    Prices and fees do not decide whether a design exists, so the model is
+    the choice part alone (:func:`_choice_rows`) plus one row per line: the
+    units the chosen options need, at most the line's capacity, which is what
+    every supplier can sell of it on one price break (the largest
+    ``min(stock, max(need_max, smallest quantity))`` of its breaks that
+    :func:`solve_model` gives variables: the useful ones, which leave out
+    breaks whose stock is below their smallest quantity). That is exact: for a fixed choice the lines'
+    purchases do not interact once fees cost nothing, a supplier buys on one
+    break of a line, and units bought past the need are allowed. A line no
+    supplier offers cannot be used at all (as in :func:`solve_model`, where
+    each user needs a seller). With nothing to minimise, the solver stops
+    at the first design.
+    """
+    m = pulp.LpProblem("partpick_any", pulp.LpMinimize)
+    x, _classes = _choice_rows(m, problem)
+    need, most = _line_units(problem, x)
+    supplier_tie = {s: 1e-7 * (i + 1) for i, s in enumerate(sorted(problem.fees))}
+    for l_i, line in enumerate(sorted(need)):
+        offers = problem.line_offers.get(line, [])
+        need_max = ceil_units(sum(most[line].values()))
+        per_supplier: dict[str, int] = {}
+        for off, useful in zip(offers, useful_breaks(offers, need_max, supplier_tie)):
+            if useful:
+                low = smallest_qty(off)
+                cap = min(off.stock, max(need_max, low))
+                per_supplier[off.supplier] = max(per_supplier.get(off.supplier, 0), cap)
+        if not per_supplier:
+            for v, _a in need[line]:
+                v.upBound = 0
+            continue
+        capacity = sum(per_supplier.values())
+        for v, a in need[line]:
+            if a > capacity + 1e-9:
+                v.upBound = 0
+        m += pulp.LpAffineExpression(need[line]) <= capacity, f"capacity_{l_i}"
+    m.setObjective(pulp.LpAffineExpression())
+    _run(m, _solver(solver, time_limit), solver)
+    return _found(m, time_limit)
 
 
 @contextmanager
@@ -383,7 +466,7 @@ def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str,
 
 
 def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None,
-                   bound: dict[str, np.ndarray] | None = None, any_design: bool = False) -> Solution:
+                   bound: dict[str, np.ndarray] | None = None) -> Solution:
     """Solve on the options whose cost bound is below a threshold T, widening T until the optimum is proven.
 
     Every design holding an option left out costs more than T; once the
@@ -405,14 +488,14 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
 
     ``bound`` is the cost bounds when the caller has them (see
     :func:`solve`); otherwise they are computed here. The solution returned
-    carries them. ``any_design``: see :func:`solve`.
+    carries them.
     """
     deadline = None if time_limit is None else _clock() + time_limit
     if bound is None:
         from partpick.optimize.prune import design_bounds
 
         bound = design_bounds(problem)
-    sol = _widen(problem, tie, solver, time_limit, deadline, bound, any_design)
+    sol = _widen(problem, tie, solver, time_limit, deadline, bound)
     sol.bounds = bound
     return sol
 
@@ -456,8 +539,8 @@ def _solve_fewest_changes(problem: Problem, tie: dict[str, np.ndarray], solver: 
 
 
 def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None, deadline: float | None,
-           bound: dict[str, np.ndarray], any_design: bool = False) -> Solution:
-    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``; ``any_design``: see :func:`solve`."""
+           bound: dict[str, np.ndarray]) -> Solution:
+    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``."""
     from partpick.optimize import prune as reduce
 
     floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
@@ -485,9 +568,6 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                 return _out_of_time(best, time_limit)
             if best is None and by_set is not None and sum(len(k) for k in keep.values()) >= FIRST_DESIGN_MIN_OPTIONS:
                 best = _first_design(problem, keep, tie, solver, by_set, left)
-                if best is not None and any_design:
-                    best.status = "not proven optimal"
-                    return best
                 if best is not None:
                     reach = objective_value(problem, best) + _tie_margin(problem, best)
                     if threshold < reach <= floor + GROWTH * (threshold - floor):
@@ -514,9 +594,6 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                 best = sol
                 value = objective_value(problem, sol)
                 if value + _tie_margin(problem, sol) <= threshold or threshold >= top:
-                    return sol
-                if any_design:
-                    sol.status = "not proven optimal"
                     return sol
                 threshold = value + _tie_margin(problem, sol)
                 continue

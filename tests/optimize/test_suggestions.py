@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 from conftest import DEMO_CATALOG, ROOT
 from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from partpick.catalog import load_catalog
 from partpick.cli import main
@@ -13,10 +16,11 @@ from partpick.errors import SizeLimitError
 from partpick.evaluate import stage
 from partpick.optimize import explain
 from partpick.optimize.design import run
-from partpick.optimize.milp import check_choice, solve
+from partpick.optimize import milp
+from partpick.optimize.milp import Group, Offer, Problem, has_design
 from partpick.spec import load_spec
 
-from .test_milp_exhaustive import assert_plan_valid, brute_force, problems
+from .test_milp_exhaustive import brute_force, problems
 
 BENCH = ROOT / "examples" / "bench_2x25w_split.toml"
 
@@ -26,17 +30,56 @@ def catalog():
     return load_catalog(DEMO_CATALOG)
 
 
+def _dearer(problem: Problem, k: float) -> Problem:
+    """The problem with every price and fee k times as high: the same designs, cost bounds k times as far apart."""
+    offers = {l: [replace(o, unit_price=o.unit_price * k) for o in offs] for l, offs in problem.line_offers.items()}
+    return replace(problem, line_offers=offers, fees={s: f * k for s, f in problem.fees.items()})
+
+
 @settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
-@given(problems())
-def test_any_design_is_a_design_exactly_when_one_exists(problem) -> None:
-    exact = brute_force(problem, "cost")
-    sol = solve(problem, "cbc", any_design=True)
-    if exact is None:
-        assert sol.status == "infeasible"
-    else:
-        assert sol.status in ("optimal", "not proven optimal")
-        assert not check_choice(problem, sol.choice)
-        assert_plan_valid(problem, sol)
+@given(problems(repeat=True), st.sampled_from([1.0, 100.0]), st.sampled_from(["cost", "lines"]))
+def test_has_design_exactly_when_one_exists(problem, k, objective) -> None:
+    # Against the brute force (every choice, every order). At 100 x the prices
+    # the first thresholds hold only some options, so the answer "none" needs
+    # the last one.
+    problem = replace(_dearer(problem, k), objective=objective)
+    assert has_design(problem, "cbc") == (brute_force(problem, "cost") is not None)
+
+
+def test_has_design_looks_among_the_cheap_options_first(monkeypatch) -> None:
+    # Hand-built: a (group g1) and c (group g2) each need 3 units of line A,
+    # 4 in stock: each alone fits, together they do not. d (g2) needs 3 of the
+    # dear line D instead. Cost bounds: c 6 (A's 6 units at 1.00), d 303; the
+    # first threshold (6 + 1) holds a and c alone and has no design, so the
+    # search widens (each distinct set solved once) until d comes in.
+    g1 = Group("g1", ["a"], [[("A", 3.0, "r1")]])
+    g2 = Group("g2", ["c", "d"], [[("A", 3.0, "r2")], [("D", 3.0, "r2")]])
+    offers = {"A": [Offer("S", 1, 1.0, 4, 1)], "D": [Offer("S", 1, 100.0, 50, 1)]}
+    p = Problem({"g1": g1, "g2": g2}, [], offers, {"S": 0.0}, 1.0)
+    seen: list[int] = []
+    real = milp._any_design_model
+
+    def spy(sub, *a):
+        seen.append(len(sub.groups["g2"]))
+        return real(sub, *a)
+
+    monkeypatch.setattr(milp, "_any_design_model", spy)
+    assert has_design(p)
+    assert seen == [1, 2]
+    seen.clear()
+    p.line_offers["D"] = [Offer("S", 1, 100.0, 2, 1)]  # 2 < 3 units: no design at all
+    assert not has_design(p)
+    assert seen == [1]  # d's bound is now inf: the only set is the whole problem's
+    # A second seller of A with 3 in stock but an MOQ of 5 cannot sell any.
+    p.line_offers["A"].append(Offer("T", 1, 1.0, 3, 5))
+    p.fees["T"] = 0.0
+    assert not has_design(p)
+    p.line_offers["A"][-1] = Offer("T", 1, 1.0, 5, 5)  # 5 in stock: it sells 5, and 4 + 5 cover 6
+    assert has_design(p)
+    seen.clear()
+    p.line_offers["D"] = [Offer("S", 1, 100.0, 50, 1)]
+    p.line_offers["A"] = [Offer("S", 1, 1.0, 40, 20)]  # MOQ 20 with 40 in stock: 20 cover a and c
+    assert has_design(p) and seen == [1]
 
 
 def test_the_feasibility_check_agrees_with_full_designs(catalog) -> None:
