@@ -444,10 +444,10 @@ def test_time_limit_reaches_every_search_of_the_command(capsys, tmp_path, monkey
     real = milp.solve
     limits, reused = [], []
 
-    def spy(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
+    def spy(problem, solver="cbc", time_limit=None, prune=True, bounds=None, start=None):
         limits.append(time_limit)
         reused.append(bounds is not None)
-        return real(problem, solver=solver, time_limit=time_limit, prune=prune, bounds=bounds)
+        return real(problem, solver=solver, time_limit=time_limit, prune=prune, bounds=bounds, start=start)
 
     monkeypatch.setattr(milp, "solve", spy)
     monkeypatch.setattr("partpick.optimize.design.solve", spy)
@@ -478,13 +478,13 @@ def test_time_limit_without_a_design_for_the_other_feed_leaves_the_comparison_ou
     found = compare_feeds(result, catalog, time_limit=45.0)
     assert found["feasible"] is True and "best" in found["reason"]  # with time, a proven comparison
 
-    def no_design(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
+    def no_design(problem, solver="cbc", time_limit=None, prune=True, bounds=None, start=None):
         raise SolverTimeout(time_limit)
 
     monkeypatch.setattr(milp, "solve", no_design)
     assert compare_feeds(result, catalog, time_limit=45.0) is None
 
-    def crashed(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
+    def crashed(problem, solver="cbc", time_limit=None, prune=True, bounds=None, start=None):
         raise SolverError("the solver stopped without a design")
 
     monkeypatch.setattr(milp, "solve", crashed)
@@ -502,7 +502,7 @@ def test_stock_risk_says_when_no_design_was_found_in_time(monkeypatch):
 
     result = design_mod.run(load_spec(MODULE), load_catalog(DEMO_CATALOG))
 
-    def no_design(problem, solver="cbc", time_limit=None, prune=True, bounds=None):
+    def no_design(problem, solver="cbc", time_limit=None, prune=True, bounds=None, start=None):
         raise SolverTimeout(time_limit)
 
     monkeypatch.setattr(milp, "solve", no_design)

@@ -264,7 +264,7 @@ def tie_weights(problem: Problem) -> dict[str, np.ndarray]:
 
 
 def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None, prune: bool = True,
-          bounds: dict[str, np.ndarray] | None = None) -> Solution:
+          bounds: dict[str, np.ndarray] | None = None, start: Solution | None = None) -> Solution:
     """The optimal choice and order; see the module docstring for the formulation.
 
     With ``prune`` (the default) the exact reductions of
@@ -284,6 +284,12 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     search sooner, but the answer is the same. The solution returned carries
     the bounds it used in :attr:`Solution.bounds`.
 
+    ``start``, a design of ``problem`` as it is now (a choice in its
+    indices, and that choice's order), is a design the cost search may
+    start from: its threshold loop begins at the start's cost, where one
+    solve proves the optimum, instead of climbing to it (see
+    :func:`_widen`). The answer is the same with or without it.
+
     Whether any design exists at all is :func:`has_design`'s question.
     """
     tie = tie_weights(problem)
@@ -297,7 +303,12 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
     if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
         known = None if bounds is None else {g: np.asarray(bounds[g], float)[fixed[g]] for g in fixed}
-        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known)
+        first = None
+        if start is not None:
+            pos = {g: int(np.searchsorted(fixed[g], o)) for g, o in start.choice.items()}
+            if all(p < len(fixed[g]) and fixed[g][p] == start.choice[g] for g, p in pos.items()):
+                first = replace(start, choice=pos, status="not proven optimal")
+        sol = _solve_bounded(sub, sub_tie, solver, time_limit, known, first)
         if sol.bounds is not None:
             sol.bounds = {g: _widened(b, fixed[g], len(problem.groups[g])) for g, b in sol.bounds.items()}
     elif problem.objective == "cost":
@@ -466,7 +477,7 @@ def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str,
 
 
 def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None,
-                   bound: dict[str, np.ndarray] | None = None) -> Solution:
+                   bound: dict[str, np.ndarray] | None = None, start: Solution | None = None) -> Solution:
     """Solve on the options whose cost bound is below a threshold T, widening T until the optimum is proven.
 
     Every design holding an option left out costs more than T; once the
@@ -488,14 +499,15 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
 
     ``bound`` is the cost bounds when the caller has them (see
     :func:`solve`); otherwise they are computed here. The solution returned
-    carries them.
+    carries them. ``start``: a design of ``problem`` to start from (see
+    :func:`_widen`).
     """
     deadline = None if time_limit is None else _clock() + time_limit
     if bound is None:
         from partpick.optimize.prune import design_bounds
 
         bound = design_bounds(problem)
-    sol = _widen(problem, tie, solver, time_limit, deadline, bound)
+    sol = _widen(problem, tie, solver, time_limit, deadline, bound, start)
     sol.bounds = bound
     return sol
 
@@ -539,8 +551,14 @@ def _solve_fewest_changes(problem: Problem, tie: dict[str, np.ndarray], solver: 
 
 
 def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None, deadline: float | None,
-           bound: dict[str, np.ndarray]) -> Solution:
-    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``."""
+           bound: dict[str, np.ndarray], start: Solution | None = None) -> Solution:
+    """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``.
+
+    With a ``start`` design of cost z, the first threshold is z + margin
+    (when that is above the usual first one): every design cheaper than the
+    start holds only options whose bound is below it, so the solve there,
+    from the start, proves the optimum at once.
+    """
     from partpick.optimize import prune as reduce
 
     floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
@@ -549,7 +567,12 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
         return _infeasible(solver)
     top = float(finite.max())
     threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
-    best: Solution | None = None
+    best: Solution | None = start
+    if start is not None:
+        threshold = min(top, max(threshold, objective_value(problem, start) + _tie_margin(problem, start)))
+    # Options in the last set that had no design: the sets only grow with the
+    # threshold, so a set of that size is the same set, and is not solved again.
+    no_design = -1
     while True:
         inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
         sol = None
@@ -560,7 +583,8 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
             by_set = reduce.supplier_set_bounds(reduce.restrict(problem, inside), threshold) if threshold < top else None
             if by_set is not None:
                 inside = {g: inside[g][by_set.by_option[g] <= threshold] for g in inside}
-        if all(len(k) for k in inside.values()):
+        size = sum(len(k) for k in inside.values())
+        if all(len(k) for k in inside.values()) and size != no_design:
             sub = reduce.restrict(problem, inside)
             keep = reduce.compose(inside, reduce.dominated(sub, {g: tie[g][inside[g]] for g in tie}))
             left = None if deadline is None else deadline - _clock()
@@ -597,6 +621,7 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                     return sol
                 threshold = value + _tie_margin(problem, sol)
                 continue
+            no_design = size
         if threshold >= top:
             return sol if sol is not None else _infeasible(solver)
         threshold = min(top, floor + GROWTH * (threshold - floor))

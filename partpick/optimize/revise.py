@@ -269,6 +269,11 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     ``time_limit`` each re-solve gets it; one that finds no design by then
     has no total and says so in ``replacement``, and a design not proven
     cheapest is marked there too.
+
+    A design found without one part that also does without the next one
+    (the cheapest such) is where the next re-solve starts
+    (:func:`~partpick.optimize.milp.solve`'s ``start``): often the same
+    design is the best without several parts.
     """
     from partpick.errors import SolverTimeout
 
@@ -278,6 +283,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     risks = []
     seen: set[str] = set()
     holders = _holders(result)
+    found: list = []  # designs found so far, each a design of the problem without its part
     for g, o in sol.choice.items():
         for line, _q, role in problem.groups[g].usage[o]:
             src = asm.lines[line][0]
@@ -293,10 +299,14 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
                     bad = np.zeros(len(problem.groups[grp_name]))
                     bad[list(opts)] = 1.0
                     problem.couplings.append(Coupling(f"without {src}", {grp_name: bad}, "<=", 0.0))
+                without = [d for d in found if not any(d.choice[h] in holders[src].get(h, ()) for h in d.choice)]
+                start = min(without, key=lambda d: d.total) if without else None
                 try:
-                    alt = solve(problem, solver=solver, time_limit=time_limit, bounds=sol.bounds)
+                    alt = solve(problem, solver=solver, time_limit=time_limit, bounds=sol.bounds, start=start)
                 except SolverTimeout:
                     alt = None
+            if alt is not None and alt.status != "infeasible":
+                found.append(alt)
             total = replacement = None
             if alt is None:
                 replacement = f"no design found within {time_limit:g} s"

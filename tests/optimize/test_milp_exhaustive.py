@@ -565,6 +565,19 @@ def test_line_pricer_hand_worked() -> None:
 # --------------------------------------------------------------------------- hand-written problems
 
 
+def crowded_line_problem() -> Problem:
+    """Hand-built: a (group g1) and c (group g2) each need 3 units of line A, 4 in stock.
+
+    Each alone fits, together they do not; d (g2) needs 3 units of the dear
+    line D (1.00 against 100.00 a unit) instead. Cost bounds: c 6 (A's 6
+    units at 1.00), d 303; the only design is (a, d) at 303.
+    """
+    g1 = Group("g1", ["a"], [[("A", 3.0, "r1")]])
+    g2 = Group("g2", ["c", "d"], [[("A", 3.0, "r2")], [("D", 3.0, "r2")]])
+    offers = {"A": [Offer("S", 1, 1.0, 4, 1)], "D": [Offer("S", 1, 100.0, 50, 1)]}
+    return Problem({"g1": g1, "g2": g2}, [], offers, {"S": 0.0}, 1.0)
+
+
 def _one_line_problem(per_board: float, offers: list[Offer], fees: dict[str, float]) -> Problem:
     g = Group("part", ["only"], [[("L", per_board, "role")]])
     return Problem({"part": g}, [], {"L": offers}, fees, 1.0)

@@ -11,7 +11,7 @@ import pytest
 from partpick.catalog import load_catalog
 from partpick.cli import main
 from partpick.optimize.design import run
-from partpick.optimize.revise import load_previous, redesign, stock_risk
+from partpick.optimize.revise import _holders, load_previous, redesign, stock_risk
 from partpick.optimize.sweep import spec_at, sweep
 from partpick.spec import load_spec
 
@@ -97,6 +97,36 @@ def test_risk_totals_equal_fresh_designs_with_the_part_excluded(catalog):
         stocked = {o.supplier for o in r.assembly.problem.line_offers[risk.mpn] if o.stock >= r.solution.need[risk.mpn]}
         assert set(risk.suppliers_with_stock) == stocked
         assert risk.single_source == (len(stocked) <= 1)
+
+
+def test_risk_re_solves_start_from_designs_found_without_the_part(catalog, monkeypatch):
+    # Each re-solve after the first may start from a design found before that
+    # also does without its part; every row still equals a fresh design with
+    # the part excluded (an independent route: evaluation and search again).
+    from partpick.optimize import milp
+
+    spec = load_spec(BENCH)
+    r = run(spec, catalog)
+    real = milp.solve
+    starts = []
+
+    def spy(problem, solver="cbc", time_limit=None, prune=True, bounds=None, start=None):
+        starts.append(start)
+        return real(problem, solver=solver, time_limit=time_limit, prune=prune, bounds=bounds, start=start)
+
+    monkeypatch.setattr(milp, "solve", spy)
+    risks = stock_risk(r)
+    monkeypatch.setattr(milp, "solve", real)
+    assert len(starts) == len(risks) and starts[0] is None
+    assert any(s is not None for s in starts)
+    holders = _holders(r)
+    for risk, start in zip(risks, starts):
+        if start is not None:  # a design of the problem without this part
+            assert not any(start.choice[g] in holders[risk.mpn].get(g, ()) for g in start.choice)
+        fresh = run(spec, catalog, exclude=(risk.mpn,))
+        assert fresh.feasible == (risk.total_without is not None)
+        if fresh.feasible:
+            assert fresh.solution.total == pytest.approx(risk.total_without, abs=1e-6)
 
 
 def test_sweep_points_equal_single_designs_and_infeasibility_matches_exit_4(catalog, tmp_path):

@@ -17,10 +17,10 @@ from partpick.evaluate import stage
 from partpick.optimize import explain
 from partpick.optimize.design import run
 from partpick.optimize import milp
-from partpick.optimize.milp import Group, Offer, Problem, has_design
+from partpick.optimize.milp import Offer, Problem, has_design
 from partpick.spec import load_spec
 
-from .test_milp_exhaustive import brute_force, problems
+from .test_milp_exhaustive import brute_force, crowded_line_problem, problems
 
 BENCH = ROOT / "examples" / "bench_2x25w_split.toml"
 
@@ -47,15 +47,10 @@ def test_has_design_exactly_when_one_exists(problem, k, objective) -> None:
 
 
 def test_has_design_looks_among_the_cheap_options_first(monkeypatch) -> None:
-    # Hand-built: a (group g1) and c (group g2) each need 3 units of line A,
-    # 4 in stock: each alone fits, together they do not. d (g2) needs 3 of the
-    # dear line D instead. Cost bounds: c 6 (A's 6 units at 1.00), d 303; the
-    # first threshold (6 + 1) holds a and c alone and has no design, so the
-    # search widens (each distinct set solved once) until d comes in.
-    g1 = Group("g1", ["a"], [[("A", 3.0, "r1")]])
-    g2 = Group("g2", ["c", "d"], [[("A", 3.0, "r2")], [("D", 3.0, "r2")]])
-    offers = {"A": [Offer("S", 1, 1.0, 4, 1)], "D": [Offer("S", 1, 100.0, 50, 1)]}
-    p = Problem({"g1": g1, "g2": g2}, [], offers, {"S": 0.0}, 1.0)
+    # crowded_line_problem: the first threshold (6 + 1) holds a and c alone
+    # and has no design, so the search widens (each distinct set solved once)
+    # until d comes in.
+    p = crowded_line_problem()
     seen: list[int] = []
     real = milp._any_design_model
 
