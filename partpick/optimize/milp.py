@@ -353,7 +353,11 @@ def has_design(problem: Problem, solver: str = "cbc", time_limit: float | None =
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
                 raise SolverTimeout(time_limit)
-            if _any_design_model(reduce.restrict(sub, inside), solver, left):
+            try:
+                found = _any_design_model(reduce.restrict(sub, inside), solver, left)
+            except SolverTimeout:
+                raise SolverTimeout(time_limit) from None  # named by the caller's limit, not what was left of it
+            if found:
                 return True
             asked = size
         if threshold >= top:

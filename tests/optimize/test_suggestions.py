@@ -77,6 +77,20 @@ def test_has_design_looks_among_the_cheap_options_first(monkeypatch) -> None:
     assert has_design(p) and seen == [1]
 
 
+def test_has_design_names_the_callers_time_limit(monkeypatch) -> None:
+    # A solve that runs out of what was left of the budget says "neither
+    # answer known" in the caller's terms: the whole limit, not the rest.
+    from partpick.errors import SolverTimeout
+
+    def out_of_time(sub, solver, left):
+        raise SolverTimeout(left)
+
+    monkeypatch.setattr(milp, "_any_design_model", out_of_time)
+    with pytest.raises(SolverTimeout) as caught:
+        has_design(crowded_line_problem(), time_limit=5.0)
+    assert caught.value.time_limit == 5.0
+
+
 def test_the_feasibility_check_agrees_with_full_designs(catalog) -> None:
     # The bench spec designs at 25 W and not at 30 W on the demo catalogue
     # (test_revise's sweep); around the edge and on other rails, the first design
