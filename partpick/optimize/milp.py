@@ -370,16 +370,16 @@ def _any_design_model(problem: Problem, solver: str, time_limit: float | None) -
 
     Prices and fees do not decide whether a design exists, so the model is
     the choice part alone (:func:`_choice_rows`) plus one row per line: the
-    units the chosen options need, at most the line's capacity, which is what
-    every supplier can sell of it on one price break (the largest
-    ``min(stock, max(need_max, smallest quantity))`` of its breaks that
-    :func:`solve_model` gives variables: the useful ones, which leave out
-    breaks whose stock is below their smallest quantity). That is exact: for a fixed choice the lines'
-    purchases do not interact once fees cost nothing, a supplier buys on one
-    break of a line, and units bought past the need are allowed. A line no
-    supplier offers cannot be used at all (as in :func:`solve_model`, where
-    each user needs a seller). With nothing to minimise, the solver stops
-    at the first design.
+    units the chosen options need, at most the line's capacity. That is
+    what its suppliers can sell of it, each on one price break: the largest
+    ``min(stock, max(need_max, smallest quantity))`` over the breaks that
+    :func:`solve_model` gives variables (the useful ones, which leave out
+    breaks whose stock is below their smallest quantity). It is exact: for
+    a fixed choice the lines' purchases do not interact once fees cost
+    nothing, a supplier buys on one break of a line, and units bought past
+    the need are allowed. A line no supplier offers cannot be used at all
+    (as in :func:`solve_model`, where each user needs a seller). With
+    nothing to minimise, the solver stops at the first design.
     """
     m = pulp.LpProblem("partpick_any", pulp.LpMinimize)
     x, _classes = _choice_rows(m, problem)
