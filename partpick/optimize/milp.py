@@ -1008,9 +1008,14 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             final = final + problem.change_weight * changes
     if problem.objective == "lines":
         u = {line: pulp.LpVariable(f"u_{k}", cat="Binary") for k, line in enumerate(sorted(users))}
-        for line, vs in users.items():
-            for v in vs:
-                m += u[line] - v >= 0
+        # A line is used when any group's chosen option uses it. One row per
+        # (line, group) over the group's users, rather than one per user: a
+        # group chooses one option, so the two forms have the same integer
+        # designs, and the sum keeps the relaxation from counting a fraction
+        # of a line per user (every line of a chosen option counts whole).
+        for line, by_group in users_by_group.items():
+            for group_users in by_group.values():
+                m += pulp.LpAffineExpression([(u[line], 1.0)] + [(v, -1.0) for v in group_users.values()]) >= 0
         goals.append(("lines", pulp.lpSum(u.values())))
     proven = True
     fees_first = list(y.values())

@@ -430,6 +430,9 @@ VARIED = [
     ("module_60w_4ohm_reactive", dict(power_w=35.0, input_vrms=7.07, channels=1), dict(boards=10, spares_pct=5.0), dict(bias_feed="resistor"), dict(ambient_c=25.0)),
     ("module_60w_4ohm_reactive", dict(power_w=44.0), dict(boards=24, spares_pct=5.0, objective="lines"), dict(bias_feed="resistor"), dict(ambient_c=50.0)),
     ("desk_2ch_12v_single", dict(power_w=1.5, input_vrms=2.0), dict(boards=4, spares_pct=10.0), dict(bias_feed="resistor"), dict()),
+    # Fewest lines over 3,345 current-source configurations.
+    ("bench_2x25w_split", dict(power_w=18.1, input_vrms=1.41, load_phase_deg=0.0, channels=1), dict(boards=2, spares_pct=0.0, objective="lines"),
+     dict(bias_feed="current_source"), dict(ambient_c=25.0)),
 ]
 
 
