@@ -303,11 +303,9 @@ def solve(problem: Problem, solver: str = "cbc", time_limit: float | None = None
     sub, sub_tie = reduce.restrict(problem, fixed), {g: tie[g][fixed[g]] for g in tie}
     if problem.objective == "cost" and not (problem.change_cost and problem.change_weight is None):
         known = None if bounds is None else {g: np.asarray(bounds[g], float)[fixed[g]] for g in fixed}
-        first = None
-        if start is not None:
-            pos = {g: int(np.searchsorted(fixed[g], o)) for g, o in start.choice.items()}
-            if all(p < len(fixed[g]) and fixed[g][p] == start.choice[g] for g, p in pos.items()):
-                first = replace(start, choice=pos, status="not proven optimal")
+        first = _within(start, fixed)
+        if first is not None:
+            first.status = "not proven optimal"
         sol = _solve_bounded(sub, sub_tie, solver, time_limit, known, first)
         if sol.bounds is not None:
             sol.bounds = {g: _widened(b, fixed[g], len(problem.groups[g])) for g, b in sol.bounds.items()}
@@ -339,17 +337,16 @@ def has_design(problem: Problem, solver: str = "cbc", time_limit: float | None =
         return False
     sub = reduce.restrict(problem, fixed)
     bound = reduce.design_bounds(replace(sub, objective="cost", change_cost={}, change_weight=None))
-    finite = [b[np.isfinite(b)] for b in bound.values()]
-    if not all(len(f) for f in finite):
+    span = _bound_span(bound)
+    if span is None:
         return False
-    floor = max(float(f.min()) for f in finite)
-    top = max(float(f.max()) for f in finite)
+    floor, top = span
     threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
-    asked = 0  # options in the last set solved: sets only grow, so a set of that size is the same set
+    no_design = -1  # options in the last set solved (none had a design); see _widen
     while True:
         inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
         size = sum(len(k) for k in inside.values())
-        if all(len(k) for k in inside.values()) and size > asked:
+        if all(len(k) for k in inside.values()) and size != no_design:
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
                 raise SolverTimeout(time_limit)
@@ -359,7 +356,7 @@ def has_design(problem: Problem, solver: str = "cbc", time_limit: float | None =
                 raise SolverTimeout(time_limit) from None  # named by the caller's limit, not what was left of it
             if found:
                 return True
-            asked = size
+            no_design = size
         if threshold >= top:
             return False
         threshold = min(top, floor + GROWTH * (threshold - floor))
@@ -371,10 +368,10 @@ def _any_design_model(problem: Problem, solver: str, time_limit: float | None) -
     Prices and fees do not decide whether a design exists, so the model is
     the choice part alone (:func:`_choice_rows`) plus one row per line: the
     units the chosen options need, at most the line's capacity. That is
-    what its suppliers can sell of it, each on one price break: the largest
-    ``min(stock, max(need_max, smallest quantity))`` over the breaks that
-    :func:`solve_model` gives variables (the useful ones, which leave out
-    breaks whose stock is below their smallest quantity). It is exact: for
+    what its suppliers can sell of it, each on one price break: the most
+    units of any of its breaks that :func:`solve_model` gives variables
+    (:func:`_breaks`; breaks whose stock is below their smallest quantity
+    are not among them). It is exact: for
     a fixed choice the lines' purchases do not interact once fees cost
     nothing, a supplier buys on one break of a line, and units bought past
     the need are allowed. A line no supplier offers cannot be used at all
@@ -383,17 +380,14 @@ def _any_design_model(problem: Problem, solver: str, time_limit: float | None) -
     """
     m = pulp.LpProblem("partpick_any", pulp.LpMinimize)
     x, _classes = _choice_rows(m, problem)
-    need, most = _line_units(problem, x)
-    supplier_tie = {s: 1e-7 * (i + 1) for i, s in enumerate(sorted(problem.fees))}
+    need, most, _users = _line_units(problem, x)
+    supplier_tie = _supplier_tie(problem)
     for l_i, line in enumerate(sorted(need)):
         offers = problem.line_offers.get(line, [])
         need_max = ceil_units(sum(most[line].values()))
         per_supplier: dict[str, int] = {}
-        for off, useful in zip(offers, useful_breaks(offers, need_max, supplier_tie)):
-            if useful:
-                low = smallest_qty(off)
-                cap = min(off.stock, max(need_max, low))
-                per_supplier[off.supplier] = max(per_supplier.get(off.supplier, 0), cap)
+        for _r_i, off, _low, cap in _breaks(offers, need_max, supplier_tie):
+            per_supplier[off.supplier] = max(per_supplier.get(off.supplier, 0), cap)
         if not per_supplier:
             for v, _a in need[line]:
                 v.upBound = 0
@@ -472,12 +466,18 @@ def _solve_reduced(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str,
     """
     from partpick.optimize.prune import restrict
 
-    first = None
-    if start is not None:
-        pos = {g: int(np.searchsorted(keep[g], o)) for g, o in start.choice.items()}
-        if all(p < len(keep[g]) and keep[g][p] == start.choice[g] for g, p in pos.items()):
-            first = replace(start, choice=pos)
+    first = _within(start, keep)
     return _lift(solve_model(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, time_limit, start=first), keep)
+
+
+def _within(start: Solution | None, keep: dict[str, np.ndarray]) -> Solution | None:
+    """``start`` (a solution of the whole problem) in the indices of the ``keep`` options; None when it chose one left out."""
+    if start is None:
+        return None
+    pos = {g: int(np.searchsorted(keep[g], o)) for g, o in start.choice.items()}
+    if all(p < len(keep[g]) and keep[g][p] == start.choice[g] for g, p in pos.items()):
+        return replace(start, choice=pos)
+    return None
 
 
 def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None,
@@ -565,11 +565,10 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
     """
     from partpick.optimize import prune as reduce
 
-    floor = max(float(b.min()) if len(b) else math.inf for b in bound.values())
-    finite = np.concatenate([b[np.isfinite(b)] for b in bound.values()])
-    if not math.isfinite(floor) or not len(finite):
+    span = _bound_span(bound)
+    if span is None:
         return _infeasible(solver)
-    top = float(finite.max())
+    floor, top = span
     threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
     best: Solution | None = start
     if start is not None:
@@ -629,6 +628,19 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
         if threshold >= top:
             return sol if sol is not None else _infeasible(solver)
         threshold = min(top, floor + GROWTH * (threshold - floor))
+
+
+def _bound_span(bound: dict[str, np.ndarray]) -> tuple[float, float] | None:
+    """(floor, top) of the options' cost bounds: the first threshold's base and the last threshold; None when a group has no option any design can hold.
+
+    The floor is the largest, over groups, of the group's least bound (every
+    design costs at least that); the top is the largest finite bound, where
+    every such option is in.
+    """
+    finite = [b[np.isfinite(b)] for b in bound.values()]
+    if not all(len(f) for f in finite):
+        return None
+    return max(float(f.min()) for f in finite), max(float(f.max()) for f in finite)
 
 
 def _out_of_time(best: Solution | None, time_limit: float) -> Solution:
@@ -874,9 +886,29 @@ def _choice_rows(m: pulp.LpProblem, problem: Problem) -> tuple[dict[str, list[pu
     return x, classes
 
 
+def _supplier_tie(problem: Problem) -> dict[str, float]:
+    """A sub-cent preference per unit for the earlier supplier (by name), so that equal prices split the same way with every solver."""
+    return {s: 1e-7 * (i + 1) for i, s in enumerate(sorted(problem.fees))}
+
+
+def _breaks(offers: list[Offer], need_max: int, supplier_tie: dict[str, float]) -> Iterator[tuple[int, Offer, int, int]]:
+    """``(row, offer, smallest quantity, most units)`` of each price break the model gives variables.
+
+    Breaks that some other break of the same supplier beats on every purchase
+    (above all, high breaks far past the need) get none
+    (:func:`~partpick.optimize.buying.useful_breaks`). A purchase buys at
+    most the stock, and no more than the line's largest need except to
+    reach the break's smallest quantity.
+    """
+    for r_i, (off, useful) in enumerate(zip(offers, useful_breaks(offers, need_max, supplier_tie))):
+        if useful:
+            low = smallest_qty(off)
+            yield r_i, off, low, min(off.stock, max(need_max, low))
+
+
 def _line_units(problem: Problem, x: dict[str, list[pulp.LpVariable]]
-                ) -> tuple[dict[str, list[tuple[pulp.LpVariable, float]]], dict[str, dict[str, float]]]:
-    """Each line's need as terms of the choice, and each group's largest use of each line.
+                ) -> tuple[dict[str, list[tuple[pulp.LpVariable, float]]], dict[str, dict[str, float]], dict[str, dict[str, dict]]]:
+    """Each line's need as terms of the choice, each group's largest use of each line, and its users by group.
 
     ``need[line]`` holds one ``(binary, units)`` term per option using the
     line, its units summed over the option's roles: an option may use one
@@ -885,10 +917,12 @@ def _line_units(problem: Problem, x: dict[str, list[pulp.LpVariable]]
     rounded so that float noise cannot demand one unit more (2 x 25 x 1.04
     is 52); the need row then has an exact right side. ``most[line][group]``
     is the largest option total of the group, so ``sum(most[line].values())``
-    bounds the line's need in any design.
+    bounds the line's need in any design. ``users[line][group]`` maps the
+    names of the group's binaries that use the line to the binaries.
     """
     per_option: dict[str, dict[str, tuple[pulp.LpVariable, float]]] = {}
     most: dict[str, dict[str, float]] = {}
+    users: dict[str, dict[str, dict[str, pulp.LpVariable]]] = {}
     for gname, g in problem.groups.items():
         for i, usage in enumerate(g.usage):
             v = x[gname][i]
@@ -899,7 +933,8 @@ def _line_units(problem: Problem, x: dict[str, list[pulp.LpVariable]]
                 terms[v.name] = (v, total)
                 per_group = most.setdefault(line, {})
                 per_group[gname] = max(per_group.get(gname, 0.0), total)
-    return {line: list(terms.values()) for line, terms in per_option.items()}, most
+                users.setdefault(line, {}).setdefault(gname, {})[v.name] = v
+    return {line: list(terms.values()) for line, terms in per_option.items()}, most, users
 
 
 def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc", time_limit: float | None = None,
@@ -915,17 +950,12 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     tie_terms = [(v, float(w)) for gname, vars_ in x.items() for v, w in zip(vars_, tie[gname]) if w]
 
     # Line needs as expressions of the choice.
-    need_expr, most = _line_units(problem, x)
+    need_expr, most, users_by_group = _line_units(problem, x)
     users = {line: [v for v, _a in terms] for line, terms in need_expr.items()}
-    users_by_group: dict[str, dict[str, dict[str, pulp.LpVariable]]] = {}
-    for gname in problem.groups:
-        for i, usage in enumerate(problem.groups[gname].usage):
-            for line, _per_board, _role in usage:
-                users_by_group.setdefault(line, {}).setdefault(gname, {})[x[gname][i].name] = x[gname][i]
     suppliers = sorted(problem.fees)
     y = {s: pulp.LpVariable(f"y_{k}", cat="Binary") for k, s in enumerate(suppliers)}
     cost_terms = [(y[s], problem.fees[s]) for s in suppliers]
-    supplier_tie = {s: 1e-7 * (i + 1) for i, s in enumerate(suppliers)}
+    supplier_tie = _supplier_tie(problem)
     buy: list[tuple[str, Offer, pulp.LpVariable]] = []
     extra: list[tuple[pulp.LpVariable, pulp.LpVariable, int]] = []  # (z, cover, need_max) of each buy
     for l_i, line in enumerate(sorted(need_expr)):
@@ -936,14 +966,7 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         covers = []
         first_buy = len(buy)
         by_supplier: dict[str, list[pulp.LpVariable]] = {}
-        # Breaks that some other break of the same supplier beats on every
-        # purchase (above all, high breaks far past the need) get no variables.
-        useful = useful_breaks(offers, need_max, supplier_tie)
-        for r_i, off in enumerate(offers):
-            if not useful[r_i]:
-                continue
-            low = smallest_qty(off)
-            cap = min(off.stock, max(need_max, low))
+        for r_i, off, low, cap in _breaks(offers, need_max, supplier_tie):
             z = pulp.LpVariable(f"z_{l_i}_{r_i}", cat="Binary")
             q = pulp.LpVariable(f"q_{l_i}_{r_i}", lowBound=0, upBound=cap, cat="Integer")
             m += q - low * z >= 0
@@ -960,16 +983,14 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             m += c - need_max * z <= 0
             covers.append((c, 1.0))
             by_supplier.setdefault(off.supplier, []).append(z)
-            # Price plus a sub-cent preference for the earlier supplier, so that
-            # equal prices split the same way with every solver.
+            # Price plus the sub-cent preference for the earlier supplier.
             cost_terms.append((q, off.unit_price + supplier_tie[off.supplier]))
             qs.append((q, 1.0))
             buy.append((line, off, q))
             extra.append((z, c, need_max))
         # A line's offers are used only when some chosen option needs the line
         # (at most one break per supplier); this also tightens the relaxation.
-        # (dedupe by name: PuLP overloads == on variables)
-        users_expr = [(v, -1.0) for v in {v.name: v for v in users[line]}.values()]
+        users_expr = [(v, -1.0) for v in users[line]]
         for zs in by_supplier.values():
             if len(zs) > 1:
                 m += pulp.lpSum(zs) <= 1

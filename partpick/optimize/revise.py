@@ -276,6 +276,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     design is the best without several parts.
     """
     from partpick.errors import SolverTimeout
+    from partpick.optimize.milp import solve
 
     asm, sol = result.assembly, result.solution
     problem = asm.problem
@@ -292,8 +293,6 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
             seen.add(src)
             need = sol.need[line]
             stocked = sorted({off.supplier for off in problem.line_offers.get(line, []) if off.stock >= need})
-            from partpick.optimize.milp import solve
-
             with rules_kept(problem):
                 for grp_name, opts in holders[src].items():
                     bad = np.zeros(len(problem.groups[grp_name]))
