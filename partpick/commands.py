@@ -191,18 +191,19 @@ def run_sweep(args: argparse.Namespace, term: Terminal) -> int:
         t.add_column(col, justify=just, overflow="fold")
     for p in points:
         if p.feasible:
-            t.add_row(f"{p.value:g}", f"{p.total:.2f}", p.output_pair, p.driver, p.heatsink, f"{p.tightest} {100 * p.tightest_fraction:.0f} %")
+            t.add_row(f"{p.value:g}", f"{p.total:.2f}" + ("*" if p.unproven else ""), p.output_pair, p.driver, p.heatsink, f"{p.tightest} {100 * p.tightest_fraction:.0f} %")
         elif p.skipped:
             t.add_row(f"{p.value:g}", Text("not designed", style="yellow"), "", "", "", "")
         else:
             t.add_row(f"{p.value:g}", Text("infeasible", style="red"), "", "", "", "")
     term.always(t)
-    skipped = [p for p in points if p.skipped]
-    if skipped:
-        from partpick.report.console import labelled
+    from partpick.report.console import labelled
 
-        values = ", ".join(f"{p.value:g}" for p in skipped)
-        term.always(labelled("warning:", "yellow", f"not designed at {values} {unit}: {skipped[0].skipped}"))
+    for attr, what in (("skipped", "not designed"), ("unproven", "* not proven optimal")):
+        marked = [p for p in points if getattr(p, attr)]
+        if marked:
+            values = ", ".join(f"{p.value:g}" for p in marked)
+            term.always(labelled("warning:", "yellow", f"{what} at {values} {unit}: {getattr(marked[0], attr)}"))
     if args.plot:
         plot_sweep(points, quantity, args.plot, cur)
         term.print(f"wrote {args.plot}")

@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import functools
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pandas as pd
@@ -89,6 +89,13 @@ class StageTable:
     rejected: pd.DataFrame
     considered: int
     explain: _Explainer | None = None
+    #: The cost threshold of a bounded table (:class:`FeedBound`): its current-source
+    #: rows are only those whose cost bound is at or below it. None: every row.
+    cost_bound: float | None = None
+    #: Core configurations whose current-source feeds a :class:`FeedBound` cut short
+    #: (0: the table is the whole one). ``cores``: core configurations evaluated for feeds.
+    cut_cores: int = 0
+    cores: int = 0
 
     def reason(self, row: pd.Series | dict) -> str:
         """The sentence, with its numbers, for one row of ``rejected`` (built on demand)."""
@@ -142,6 +149,35 @@ class _Feeds:
     rth: np.ndarray  # [row, class] sink limits of rows with sources on the sink (NaN elsewhere)
     unserved: np.ndarray  # core configurations no feed serves
     unserved_r1_max: np.ndarray  # their largest feed resistor [ohm] (NaN under current sources)
+    above_bound: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))  # core configurations left without a feed by a FeedBound alone
+    cut: int = 0  # core configurations some of whose feeds a FeedBound skipped at a finite bound
+
+
+@dataclass
+class FeedBound:
+    """Which current-source feeds to build: those whose cost bound is at or below ``threshold``.
+
+    A feed row (core configuration c, variant v) gets the bound
+    ``core_lb[c] + parts(v)``: ``core_lb`` a lower bound on the cost of any
+    design holding core configuration c with its feed's parts left out (from
+    the relaxed table, :func:`evaluate_stage` with ``relaxed=True``), and
+    ``parts(v)`` the variant's source transistors and reference at their
+    least unit price (``transistor_price``, ``diode_price``: per catalogue
+    row, ``inf`` when no supplier can sell it) times the units the order
+    needs (per board times ``factor``, rounded as the optimiser rounds). The
+    feed's resistors count as nothing. Rows above the threshold are not built:
+    no design holding one costs less than its bound. Resistor feeds are all
+    built.
+    """
+
+    core_lb: np.ndarray  # per core configuration (the relaxed table's core_i); inf: no design
+    threshold: float
+    transistor_price: np.ndarray  # least unit price per pool.transistors row
+    diode_price: np.ndarray  # least unit price per pool.diodes row
+    factor: float  # boards x (1 + spares)
+
+    def units(self, per_board: float) -> float:
+        return round(per_board * self.factor, 6)
 
 
 # --------------------------------------------------------------------------- rails
@@ -324,6 +360,9 @@ def re_options(pool: Pool, targets: Targets) -> pd.DataFrame:
 # --------------------------------------------------------------------------- the table
 
 
+#: The funnel's entry for core configurations a :class:`FeedBound` left without a feed.
+ABOVE_BOUND = "feeds not built: cost bound above the search threshold"
+
 FIRST_FAIL_ORDER = (
     "transistor headroom (s.3)",
     "driver reach (s.3)",
@@ -336,8 +375,28 @@ FIRST_FAIL_ORDER = (
 )
 
 
-def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
-    """Every stage configuration with its margins; the feasible ones with coupling numbers."""
+@dataclass
+class StageCores:
+    """The core configurations (rail x pair x Re) that pass their own checks, before any bias feed.
+
+    What every feed expansion of :func:`evaluate_stage` starts from; ``core``
+    is None when there is no rail, pair or Re value at all.
+    """
+
+    rails: pd.DataFrame
+    pairs: pd.DataFrame
+    res: pd.DataFrame
+    funnel: dict[str, int]  # removals so far (copied by each evaluation)
+    core: pd.DataFrame | None
+    rth_max: np.ndarray | None  # [core, class] the core's own heatsink limits
+    rejected: pd.DataFrame | None  # core candidates that failed, with rejected_by
+    sink: _Sink | None
+    vd_min: float
+    considered: int
+
+
+def stage_cores(spec: Spec, pool: Pool, targets: Targets) -> StageCores:
+    """The core configurations and their own checks (model s.3, 5, 6, 7), shared by every feed expansion."""
     rails, reg_funnel = rail_options(spec, pool, targets)
     pairs = pair_options(pool, spec.output.pairing)
     res = re_options(pool, targets)
@@ -349,7 +408,7 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     if n_p == 0:
         funnel["no output pair (complements or packages)"] = 1
     if n_r * n_p * n_e == 0:
-        return _empty(rails, pairs, res, funnel, n_r * n_p * n_e)
+        return StageCores(rails, pairs, res, funnel, None, None, None, None, DIODE_DROP_V, n_r * n_p * n_e)
 
     # Core grid: rail x pair x Re, flattened.
     ri, pi_, ei = (g.ravel() for g in np.meshgrid(np.arange(n_r), np.arange(n_p), np.arange(n_e), indexing="ij"))
@@ -403,8 +462,30 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     core_rejected, core_ok = _first_fail(core, core_checks, funnel)
     core = core[core_ok].reset_index(drop=True)
     rth_max = rth_max[core_ok]
+    return StageCores(rails, pairs, res, funnel, core, rth_max, core_rejected, sink, vd_min, n_r * n_p * n_e)
 
-    fed = _feeds(spec, pool, targets, core, vd_min, sink)
+
+def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = False,
+                   feed_bound: FeedBound | None = None, cores: StageCores | None = None) -> StageTable:
+    """Every stage configuration with its margins; the feasible ones with coupling numbers.
+
+    ``relaxed``: one row per core configuration instead, fed by no parts
+    (feed ``"any"``, no standing current, the core's own heatsink limits, a
+    bias-feed option with no lines): every constraint of a real row of that
+    core holds for it, so a design's cost with it bounds from below the cost
+    of any design with that core and any feed (what :class:`FeedBound` needs).
+    ``feed_bound``: build only the current-source rows under its threshold.
+    ``cores``: :func:`stage_cores` of the same spec, pool and targets, when
+    the caller has it (a bounded search evaluates feeds several times).
+    """
+    c = cores if cores is not None else stage_cores(spec, pool, targets)
+    if c.core is None:
+        return _empty(c.rails, c.pairs, c.res, dict(c.funnel), c.considered)
+    rails, pairs, res, core, rth_max, sink, vd_min = c.rails, c.pairs, c.res, c.core, c.rth_max, c.sink, c.vd_min
+    funnel = dict(c.funnel)
+    core_rejected, classes = c.rejected, sink.classes
+
+    fed = _relaxed_feeds(core, sink) if relaxed else _feeds(spec, pool, targets, core, vd_min, sink, feed_bound)
     feeds = fed.rows
     core_i = feeds["core_i"].to_numpy().astype(int)
     k = core.iloc[core_i].reset_index(drop=True)
@@ -416,6 +497,9 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     k["rth_sa_best_k_w"] = np.nanmax(rth_k, axis=1)
     unserved = fed.unserved
     funnel["bias feed (s.3)"] = int(len(unserved))
+    if feed_bound is not None:
+        # Not rejected by a constraint: their feeds were not built (FeedBound).
+        funnel[ABOVE_BOUND] = int(len(fed.above_bound))
     feed_rejected = core.iloc[unserved].copy()
     feed_rejected["rejected_by"] = "bias feed (s.3)"
     feed_rejected["r1_max_ohm"] = fed.unserved_r1_max
@@ -444,7 +528,9 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets) -> StageTable:
     return StageTable(
         configs=k, rth_sa_max=rth_k, rth_cs_classes=classes, feed_options=feed_opts,
         re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=rejected,
-        considered=n_r * n_p * n_e, explain=explain,
+        considered=c.considered, explain=explain,
+        cost_bound=None if feed_bound is None else feed_bound.threshold,
+        cut_cores=fed.cut, cores=len(core),
     )
 
 
@@ -505,7 +591,19 @@ def _rth_sa_max(spec, devices, pi_, p_dev, n_dev, util, rail_max, re, iq, rth_cs
     return out
 
 
-def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float, sink: _Sink) -> _Feeds:
+def _relaxed_feeds(core: pd.DataFrame, sink: _Sink) -> _Feeds:
+    """One feed per core configuration that needs no parts and nothing of the other roles (``relaxed``)."""
+    n = len(core)
+    idx = np.arange(n)
+    rows = pd.DataFrame(dict(core_i=idx, feed="any", ccs_n_i=-1, ccs_p_i=-1, ref_i=-1, ref_per_source=0,
+                             standing_a=0.0, ccs_mount="", ccs_package="", sink_devices=sink.n_dev))
+    options = pd.DataFrame(dict(k=idx, family="", kind="none", v1=np.nan, v2=np.nan, p1_w=np.nan, p2_w=np.nan))
+    return _Feeds(rows=rows, options=options, rth=np.full((n, len(sink.classes)), np.nan),
+                  unserved=np.zeros(0, np.int64), unserved_r1_max=np.zeros(0))
+
+
+def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float, sink: _Sink,
+           bound: FeedBound | None = None) -> _Feeds:
     """Expand core configurations by bias feed; attach the feed-resistor options.
 
     ``rows`` has one row per (core config, feed variant) that some resistor
@@ -513,7 +611,9 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     ``options`` lists the feed-resistor lines (compat with the expanded rows),
     ``rth`` the heatsink limits [row, class] of rows whose current sources sit
     on the heatsink (NaN elsewhere: the core configuration's own limits hold),
-    ``unserved`` the core configurations no feed can serve.
+    ``unserved`` the core configurations no feed can serve, ``above_bound``
+    those left without one because ``bound`` skipped some of their
+    current-source feeds (whether those would have served is not known).
     """
     fams = pool.passives[pool.passives["kind"] == "resistor"].reset_index(drop=True)
     mode = spec.stage.bias_feed
@@ -555,7 +655,9 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     ccs_ok = np.zeros(n, dtype=bool)
     if mode in ("current_source", "auto"):
         n_opts = sum(len(o) for o in options)
-        for idx, frame, n_new, make_options, limits in _ccs_variants(spec, pool, targets, core, fams, sink):
+        skipped = np.zeros(n, dtype=bool)  # some feed left out by the bound
+        cut = np.zeros(n, dtype=bool)  # ... at a finite bound: a higher threshold would build it
+        for idx, frame, n_new, make_options, limits in _ccs_variants(spec, pool, targets, core, fams, sink, bound, skipped, cut):
             n_opts += n_new
             if offset + len(idx) > STAGE_ROWS_MAX or n_opts > FEED_OPTIONS_MAX:
                 raise SizeLimitError(_too_many_feeds(mode, n, pool))
@@ -569,17 +671,22 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
             offset += len(idx)
             ccs_ok[idx] = True
     columns = ["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"]
-    unserved = np.flatnonzero(~(res_ok | ccs_ok))
+    served = res_ok | ccs_ok
+    above = skipped & ~served if mode in ("current_source", "auto") else np.zeros(n, dtype=bool)
+    unserved = np.flatnonzero(~served & ~above)
     return _Feeds(
         rows=pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=columns),
         options=pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"]),
         rth=np.concatenate(rth) if rth else np.zeros((0, n_cls)),
         unserved=unserved,
         unserved_r1_max=r1_max[unserved] if mode != "current_source" else np.full(len(unserved), np.nan),
+        above_bound=np.flatnonzero(above),
+        cut=int(cut.sum()) if mode in ("current_source", "auto") else 0,
     )
 
 
-def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame, sink: _Sink):
+def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame, sink: _Sink,
+                  bound: FeedBound | None = None, skipped: np.ndarray | None = None, cut: np.ndarray | None = None):
     """Current-source feeds (model s.3 (a')): small complementary pair x reference x mounting.
 
     Yields ``(core rows served, variant frame, resistor options, sink limits)``.
@@ -600,6 +707,12 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     (:func:`~partpick.model.swing.ccs_current_bounds_a`, Vbe rising with the
     current): the base drive is checked at the lower bound, heat, reference
     loading and the bias-diode rating at the upper one.
+
+    With a ``bound``, a (core configuration, pair, reference) whose
+    :class:`FeedBound` bound is above the threshold is not built, and marked
+    in ``skipped``, and in ``cut`` too when its bound is finite (an infinite
+    one: the relaxed table has no design with that core, or a part has no
+    usable offer, so no threshold builds it).
     """
     small, refs = _ccs_candidates(pool)
     rail_min = core["rail_min_v"].to_numpy(float)
@@ -622,6 +735,13 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
         vbe_req = dev["vbe"](i_req)
         for d_i, per, vref, if_max in refs:
             room = vref - vbe_req >= CCS_MIN_RE_DROP_V
+            if bound is not None:
+                parts = (bound.units(targets.channels) * (bound.transistor_price[s.npn_i] + bound.transistor_price[s.pnp_i])
+                         + bound.units(2 * targets.channels * per) * bound.diode_price[d_i])
+                under = bound.core_lb + parts <= bound.threshold
+                skipped |= room & ~under
+                cut |= room & ~under & np.isfinite(bound.core_lb + parts)
+                room &= under
             if not room.any():
                 continue
             # Families of one E-series and value range give the same resistor

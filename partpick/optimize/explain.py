@@ -13,7 +13,7 @@ import numpy as np
 
 from partpick.catalog import Catalog
 from partpick.errors import SizeLimitError, SolverTimeout
-from partpick.optimize.design import ROLE_ORDER, DesignResult, force_part, option_sources, prepare, run
+from partpick.optimize.design import ROLE_ORDER, DesignResult, force_part, option_sources, prepare, proven_whole, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -278,6 +278,10 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
     ``first``, the design already made for this spec and catalogue, is
     reused instead of designed again. With ``time_limit`` every design gets
     it; the list ends at the first search that finds no design by then.
+    When ``first`` comes from a bounded stage table
+    (:func:`~partpick.optimize.design.run_bounded`), a design dearer than
+    the table's cost bound is marked "not proven optimal", and the list ends
+    where the table has no further design.
     """
     from partpick.errors import SolverTimeout
 
@@ -302,6 +306,8 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
                 break
             if sol.status == "infeasible":
                 break
+            if sol.status == "optimal" and not proven_whole(first, sol):
+                sol.status = "not proven optimal"  # dearer than a bounded table's cost bound
             check = check_chosen(first.spec, first.pool, first.targets, first.stage, first.assembly, sol.choice)
             out.append(DesignResult(first.spec, first.pool, first.targets, first.stage, first.assembly, sol, check, "ok" if sol.status == "optimal" else sol.status, list(first.warnings)))
     return out
@@ -333,7 +339,17 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     other = "resistor" if chosen == "current_source" else "current_source"
     k = result.assembly.tables["stage"]
     mask = (k["feed"].to_numpy() == other).astype(float)
-    if mask.any():
+    if result.stage.cost_bound is not None and other == "current_source":
+        # The design's table holds only the current-source configurations under
+        # its cost bound (design.run_bounded): design that feed on its own.
+        try:
+            alone = run(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver, time_limit=time_limit)
+        except (SolverTimeout, SizeLimitError):
+            return None
+        if alone.feasible:
+            return _feed_found(result, other, alone.solution, time_limit)
+        reason = "no design with it meets every constraint"
+    elif mask.any():
         with rules_kept(result.assembly.problem) as problem:
             problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
             try:
@@ -341,11 +357,21 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
             except SolverTimeout:
                 return None
         if alt.status != "infeasible":
-            extra = alt.total - result.solution.total
-            best = "best" if alt.status == "optimal" else f"cheapest (found within {time_limit:g} s, not proven optimal)"
-            return {"feed": other, "feasible": True, "total": round(alt.total, 2), "extra_cost": round(extra, 2),
-                    "reason": f"the {best} {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
+            return _feed_found(result, other, alt, time_limit)
         reason = "no design with it meets the couplings with the other roles"
     else:
         reason = feed_failure(result.stage, k.iloc[result.solution.choice["stage"]], other)
     return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
+
+
+def _feed_found(result: DesignResult, other: str, alt, time_limit: float | None) -> dict:
+    """:func:`compare_feeds`' answer when the other feed has a design ``alt`` (a Solution)."""
+    extra = alt.total - result.solution.total
+    if alt.status == "optimal":
+        best = "best"
+    elif time_limit is not None:
+        best = f"cheapest (found within {time_limit:g} s, not proven optimal)"
+    else:
+        best = "cheapest found (not proven optimal)"
+    return {"feed": other, "feasible": True, "total": round(alt.total, 2), "extra_cost": round(extra, 2),
+            "reason": f"the {best} {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}

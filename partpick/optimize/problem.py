@@ -113,6 +113,8 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     for row in opts.itertuples(index=False):
         if row.kind == "bias_resistor":
             usage.append([use(row.family, row.v1, 2 * ch, "bias_resistor")])
+        elif row.kind == "none":  # a relaxed table's feed (evaluate_stage(relaxed=True)): no parts
+            usage.append([])
         else:
             usage.append([use(row.family, row.v1, 2 * ch, "bias_source_resistor"), use(row.family, row.v2, 2 * ch, "bias_source_resistor")])
     groups["bias_feed"] = Group(
@@ -314,6 +316,16 @@ def _offers(pool: Pool, lines: dict[str, tuple[str, float | None]]) -> dict[str,
         moq = 1 if moq is None or (isinstance(moq, float) and math.isnan(moq)) else int(moq)
         by_source.setdefault(mpn, []).append(Offer(supplier, int(min_qty), float(price), int(stock), moq))
     return {key: by_source.get(src, []) for key, (src, _v) in lines.items()}
+
+
+def price_floor(pool: Pool, mpns) -> np.ndarray:
+    """The least unit price at which each of ``mpns`` can be bought (``inf``: no usable offer), from :func:`_offers`."""
+    from partpick.optimize.buying import usable
+
+    names = list(mpns)
+    offers = _offers(pool, {m: (m, None) for m in set(names)})
+    least = {m: min((p for _s, _low, p, _st in usable(o)), default=math.inf) for m, o in offers.items()}
+    return np.array([least[m] for m in names], dtype=float)
 
 
 def _counts(frame: pd.DataFrame) -> dict[str, int]:

@@ -17,7 +17,7 @@ import numpy as np
 
 from partpick.catalog import Catalog
 from partpick.errors import InputError, Problem
-from partpick.optimize.design import DesignResult, finish, option_sources, prepare, usable_sources
+from partpick.optimize.design import DesignResult, finish, option_sources, prepare, proven_whole, usable_sources
 from partpick.optimize.milp import Coupling, rules_kept
 from partpick.report.build import SCHEMA, value_text
 from partpick.spec import Spec
@@ -274,6 +274,13 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     (the cheapest such) is where the next re-solve starts
     (:func:`~partpick.optimize.milp.solve`'s ``start``): often the same
     design is the best without several parts.
+
+    On a design found on a bounded stage table (:func:`~partpick.optimize.design.run_bounded`),
+    a re-solve is proven only when it costs no more than the table's cost
+    bound (:func:`~partpick.optimize.design.proven_whole`); for the others
+    the spec is designed anew without the part (a run of its own, bounded
+    again if need be), and when that stops at a limit the row says "not
+    proven" in ``replacement``.
     """
     from partpick.errors import SolverTimeout
     from partpick.optimize.milp import solve
@@ -306,18 +313,42 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
                     alt = None
             if alt is not None and alt.status != "infeasible":
                 found.append(alt)
+            used = asm  # the assembly alt solves
+            whole = alt is None or proven_whole(result, alt)
+            if not whole:
+                # Past the bounded table's cost bound: design again without the part (its own bounded table).
+                again = _designed_without(result, src, solver, time_limit)
+                if again is not None:
+                    (used, alt), whole = again, True
             total = replacement = None
             if alt is None:
                 replacement = f"no design found within {time_limit:g} s"
+            elif not whole and alt.status == "infeasible":
+                replacement = (f"no design among the stage configurations under the cost bound "
+                               f"({result.stage.cost_bound:.2f} {result.pool.currency}); not proven that none exists")
             elif alt.status != "infeasible":
                 total = alt.total
-                gg = g
-                roles = [asm.lines[l][0] for l, _q2, r in problem.groups[gg].usage[alt.choice[gg]] if r == role]
+                roles = [used.lines[l][0] for l, _q2, r in used.problem.groups[g].usage[alt.choice[g]] if r == role]
                 replacement = ", ".join(roles) or None
-                if alt.status != "optimal":
+                if alt.status != "optimal" or not whole:
                     replacement = f"{replacement or 'the same parts'} (not proven optimal)"
             risks.append(Risk(src, role, stocked, len(stocked) <= 1, total, replacement))
     return risks
+
+
+def _designed_without(result: DesignResult, src: str, solver: str, time_limit: float | None):
+    """``result``'s spec designed anew without ``src``: (its assembly, its solution), the solution
+    infeasible when no design exists; None when that run stops at a limit."""
+    from partpick.errors import SizeLimitError, SolverTimeout
+    from partpick.optimize.design import run
+    from partpick.optimize.milp import _infeasible
+
+    excluded = tuple(m for m, why in result.pool.left_out.items() if why == "excluded")
+    try:
+        again = run(result.spec, result.pool.catalog, exclude=excluded + (src,), solver=solver, time_limit=time_limit)
+    except (SizeLimitError, SolverTimeout):
+        return None
+    return again.assembly, again.solution if again.solution is not None else _infeasible(solver)
 
 
 def _holders(result: DesignResult) -> dict[str, dict[str, set[int]]]:

@@ -53,6 +53,8 @@ class SweepPoint:
     tightest_fraction: float | None
     #: Why the point was not designed (its run met the size limit), else None.
     skipped: str | None = None
+    #: Why the point's design is not proven the cheapest (see design.run_bounded), else None.
+    unproven: str | None = None
 
 
 def sweep(spec: Spec, catalog: Catalog, quantity: str, values: np.ndarray, solver: str = "cbc") -> list[SweepPoint]:
@@ -84,6 +86,7 @@ def sweep(spec: Spec, catalog: Catalog, quantity: str, values: np.ndarray, solve
             r.assembly.tables["driver_opamp"].iloc[r.solution.choice["driver_opamp"]]["mpn"],
             r.assembly.tables["heatsink"].iloc[r.solution.choice["heatsink"]]["mpn"],
             f"{role} {margin.name}", round(margin.fraction, 4),
+            unproven=None if r.status == "ok" else (r.warnings[-1] if r.warnings else "not proven optimal"),
         ))
     if limited is not None and all(p.skipped for p in points):
         raise limited
@@ -105,6 +108,10 @@ def plot_sweep(points: list[SweepPoint], quantity: str, path: str, currency: str
     fig, ax = plt.subplots(figsize=(8, 4.5), dpi=100)
     ok = [p for p in points if p.feasible]
     ax.plot([p.value for p in ok], [p.total for p in ok], "o-", color="tab:blue", label="optimal total")
+    open_ = [p for p in ok if p.unproven]
+    if open_:
+        ax.plot([p.value for p in open_], [p.total for p in open_], "o", markerfacecolor="white", color="tab:blue",
+                label="found, not proven optimal")
     bad = [p for p in points if not p.feasible and p.skipped is None]
     if bad:
         y0 = min([p.total for p in ok], default=0.0)

@@ -1,0 +1,209 @@
+"""Past the stage size limit, the cost objective builds only the current-source feeds that can be in the cheapest design.
+
+Checked against an independent route: the same spec designed from the whole
+stage table (the size limit patched down only for the bounded run), and
+each left-out row's bound against the MILP's optimum with that row forced.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import DEMO_CATALOG, ROOT
+
+from partpick.catalog import load_catalog
+from partpick.errors import SizeLimitError
+from partpick.evaluate import stage
+from partpick.evaluate.context import Targets, make_pool
+from partpick.optimize import design
+from partpick.optimize.design import prepare, proven_whole, run
+from partpick.optimize.explain import _with, alternatives
+from partpick.optimize.milp import solve
+from partpick.optimize.problem import assemble, price_floor
+from partpick.optimize.revise import stock_risk
+from partpick.optimize.sweep import spec_at
+from partpick.spec import load_spec
+
+EXAMPLES = ROOT / "examples"
+
+
+@pytest.fixture(scope="module")
+def catalog():
+    return load_catalog(DEMO_CATALOG)
+
+
+def _bench(power: float, **stage_values):
+    spec = spec_at(load_spec(EXAMPLES / "bench_2x25w_split.toml"), "power", power)
+    return _with(spec, "stage", **stage_values) if stage_values else spec
+
+
+CASES = {
+    # auto feed, a resistor design found in the first round
+    "bench 20 W auto": lambda: _bench(20.0),
+    # auto feed, no resistor feed at all: the threshold grows through rounds without a design
+    "bench 25 W auto": lambda: _bench(25.0),
+    "bench 22 W current source": lambda: _bench(22.0, bias_feed="current_source"),
+    "desk 1.5 W auto": lambda: spec_at(load_spec(EXAMPLES / "desk_2ch_12v_single.toml"), "power", 1.5),
+    "module current source": lambda: _with(load_spec(EXAMPLES / "module_60w_4ohm_reactive.toml"), "stage", bias_feed="current_source"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(CASES))
+def test_the_bounded_route_finds_the_whole_tables_optimum(name, catalog, monkeypatch) -> None:
+    spec = CASES[name]()
+    whole = run(spec, catalog)
+    assert whole.status == "ok" and whole.stage.cost_bound is None
+    rows = len(whole.stage.configs)
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", rows - 1)
+    with pytest.raises(SizeLimitError):
+        prepare(spec, catalog)  # the whole table is now past the limit
+    bounded = run(spec, catalog)
+    assert bounded.status == "ok"
+    assert bounded.stage.cost_bound is not None
+    assert len(bounded.stage.configs) < rows
+    assert bounded.solution.total == pytest.approx(whole.solution.total, abs=1e-6)
+    assert bounded.solution.total <= bounded.stage.cost_bound
+    assert not bounded.check.failing()
+    assert any("whose cost bound is at or below" in w for w in bounded.warnings)
+    assert bounded.stage.funnel[stage.ABOVE_BOUND] >= 0
+
+
+def _row_bounds(spec, catalog):
+    """The whole table and each row's bound as run_bounded bounds it (:func:`design.feed_bound`, then a FeedBound's sum)."""
+    pool = make_pool(spec, catalog)
+    targets = Targets.from_spec(spec)
+    cores = stage.stage_cores(spec, pool, targets)
+    fb = design.feed_bound(spec, pool, targets, cores)
+    whole = stage.evaluate_stage(spec, pool, targets, cores=cores)
+    asm = assemble(spec, pool, targets, whole)
+    k = whole.configs
+    ch = targets.channels
+    ccs = (k["feed"] == "current_source").to_numpy()
+    n_i, p_i, r_i = (np.where(ccs, k[c], 0) for c in ("ccs_n_i", "ccs_p_i", "ref_i"))
+    per = k["ref_per_source"].to_numpy()
+    parts = np.where(
+        ccs,
+        fb.units(ch) * (fb.transistor_price[n_i] + fb.transistor_price[p_i])
+        + np.array([fb.units(2 * ch * q) for q in per]) * fb.diode_price[r_i],
+        0.0,
+    )
+    return asm, ccs, fb.core_lb[k["core_i"].to_numpy(int)] + parts
+
+
+@pytest.mark.parametrize("name", ["bench 20 W auto", "bench 22 W current source"])
+def test_a_rows_bound_is_below_every_design_holding_it(name, catalog) -> None:
+    """The relaxation is a true lower bound: the cheapest design holding a row (the MILP with the row forced) never costs less.
+
+    Checked at the whole table's optimum row and at the first rows, in bound
+    order, that have a design (the tightest bounds mostly have none: their
+    cheap parts miss a coupling), and at a spread of others.
+    """
+    asm, ccs, bound = _row_bounds(CASES[name](), catalog)
+    best = solve(asm.problem)
+    assert bound[best.choice["stage"]] <= best.total + 1e-9
+    rows = np.flatnonzero(ccs)
+    order = list(rows[np.argsort(bound[rows], kind="stable")[:60]]) + list(np.random.default_rng(7).choice(rows, 6, replace=False))
+    checked = 0
+    for r in order:
+        asm.problem.forced = {"stage": int(r)}
+        sol = solve(asm.problem)
+        if sol.status == "infeasible":
+            continue
+        assert sol.status == "optimal"
+        assert sol.total >= bound[r] - 1e-9, (r, sol.total, bound[r])
+        checked += 1
+        if checked == 10:
+            break
+    asm.problem.forced = {}
+    assert checked == 10
+
+
+@pytest.mark.parametrize("limit", [2900, 1000])
+def test_stock_risk_and_alternatives_of_a_bounded_design_are_exact_or_say_not_proven(catalog, monkeypatch, limit) -> None:
+    """The bench example at 20 W has 2,901 stage configurations: 2,900 lets every re-design fit, 1,000 does not."""
+    spec = _bench(20.0)
+    whole = run(spec, catalog)
+    whole_risks = {r.mpn: r for r in stock_risk(whole)}
+    whole_alts = [a.solution.total for a in alternatives(spec, catalog, 3, first=whole)]
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", limit)
+    bounded = run(spec, catalog)
+    assert bounded.status == "ok" and bounded.stage.cost_bound is not None
+    assert proven_whole(bounded, bounded.solution) and proven_whole(whole, whole.solution)
+    risks = stock_risk(bounded)
+    assert [r.mpn for r in risks] == list(whole_risks)
+    unproven = 0
+    for r in risks:
+        w = whole_risks[r.mpn]
+        if "not proven" in (r.replacement or ""):
+            unproven += 1
+            assert r.total_without is None or r.total_without >= w.total_without - 1e-6
+        else:
+            assert r.total_without == pytest.approx(w.total_without, abs=1e-6)
+    assert unproven == 0 if limit == 2900 else unproven > 0
+    alts = alternatives(spec, catalog, 3, first=bounded)
+    assert alts[0] is bounded and len(alts) == len(whole_alts)
+    for a, w in zip(alts[1:], whole_alts[1:]):
+        if a.status == "ok":
+            assert a.solution.total == pytest.approx(w, abs=1e-6) and a.solution.total <= bounded.stage.cost_bound
+        else:
+            assert a.status == "not proven optimal" and a.solution.total > bounded.stage.cost_bound
+
+
+def test_the_bounded_route_is_for_the_cost_objective_alone(catalog, monkeypatch) -> None:
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)
+    with pytest.raises(SizeLimitError):
+        run(_bench(20.0), catalog, objective="lines")
+
+
+def test_a_relaxed_table_too_large_to_bound_keeps_the_size_limit_error(catalog, monkeypatch) -> None:
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)
+    monkeypatch.setattr(design, "RELAXED_CELLS_MAX", 10)
+    with pytest.raises(SizeLimitError, match="more than 1,000 stage configurations"):
+        run(_bench(20.0), catalog)
+
+
+def test_the_command_designs_past_the_limit_and_says_how(catalog, monkeypatch, tmp_path, capsys) -> None:
+    import json
+
+    from partpick.cli import main
+
+    spec_file = tmp_path / "bench20.toml"
+    spec_file.write_text((EXAMPLES / "bench_2x25w_split.toml").read_text(encoding="utf-8").replace("power_w = 25.0", "power_w = 20.0"), encoding="utf-8")
+    whole = run(load_spec(spec_file), catalog)
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)  # the whole table has 2,901 rows
+    report = tmp_path / "r.json"
+    code = main(["--no-color", "design", str(spec_file), "--catalog", str(DEMO_CATALOG), "--json", str(report)])
+    out = capsys.readouterr()
+    assert code == 0, out.err
+    assert "Traceback" not in out.out + out.err
+    rep = json.loads(report.read_text(encoding="utf-8"))
+    assert rep["totals"]["total"] == pytest.approx(round(whole.solution.total, 2))
+    assert any("whose cost bound is at or below" in w for w in rep["warnings"])
+    assert "still the cheapest of the whole catalogue" in " ".join(out.out.split())
+
+
+def _tables(spec, catalog, core_lb_of, threshold):
+    pool = make_pool(spec, catalog)
+    targets = Targets.from_spec(spec)
+    cores = stage.stage_cores(spec, pool, targets)
+    whole = stage.evaluate_stage(spec, pool, targets, cores=cores)
+    tr, dio = price_floor(pool, pool.transistors["mpn"]), price_floor(pool, pool.diodes["mpn"])
+    fb = stage.FeedBound(core_lb_of(len(cores.core)), threshold, tr, dio, 1.0)
+    return whole, stage.evaluate_stage(spec, pool, targets, feed_bound=fb, cores=cores)
+
+
+def test_a_threshold_above_every_bound_builds_the_whole_table(catalog) -> None:
+    whole, bounded = _tables(_bench(20.0), catalog, np.zeros, 1e12)
+    assert bounded.cut_cores == 0 and bounded.funnel[stage.ABOVE_BOUND] == 0
+    assert list(bounded.configs["key"]) == list(whole.configs["key"])
+    assert bounded.feed_options.equals(whole.feed_options)
+
+
+def test_cores_without_any_design_are_left_out_but_not_counted_as_cut(catalog) -> None:
+    """An infinite bound (no design even fed by nothing) builds no current source at any threshold."""
+    whole, bounded = _tables(_bench(20.0), catalog, lambda n: np.full(n, np.inf), 1e12)
+    assert bounded.cut_cores == 0
+    assert (bounded.configs["feed"] == "resistor").all()
+    assert len(bounded.configs) == int((whole.configs["feed"] == "resistor").sum())
+    assert bounded.funnel[stage.ABOVE_BOUND] > 0  # cores only a current source could feed
+    assert bounded.funnel["bias feed (s.3)"] <= whole.funnel["bias feed (s.3)"]
