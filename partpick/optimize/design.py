@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -177,19 +177,12 @@ def run_bounded(
     from partpick.optimize.milp import FIRST_STEP, _tie_margin, objective_value
 
     spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": "cost"})})
-    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
-    targets = Targets.from_spec(spec)
-    cores = stage_cores(spec, pool, targets)
-    bound = feed_bound(spec, pool, targets, cores)
+    pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, spec_label, too_large)
     if bound is None:
-        raise too_large or SizeLimitError(f"more than {RELAXED_CELLS_MAX:,} stage configuration and heatsink pairs")
-    core_lb, tr_price, dio_price, factor = bound.core_lb, bound.transistor_price, bound.diode_price, bound.factor
-    finite = core_lb[np.isfinite(core_lb)]
-    if not len(finite):
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
         raise too_large or SizeLimitError("no design, and too many stage configurations to say why")
-    floor = float(finite.min())
+    floor = float(np.min(bound.core_lb))
     threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
     deadline = None if time_limit is None else time.monotonic() + time_limit
     best: DesignResult | None = None  # the cheapest design found, not yet proven
@@ -197,7 +190,7 @@ def run_bounded(
     splits = 0
     while True:
         try:
-            stage = evaluate_stage(spec, pool, targets, feed_bound=FeedBound(core_lb, threshold, tr_price, dio_price, factor), cores=cores)
+            stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
         except SizeLimitError:
             past, splits = threshold, splits + 1
             if splits > BOUND_SPLITS:
@@ -240,6 +233,58 @@ def run_bounded(
             return result  # every feed was built: no design at all
         grown = floor + BOUND_GROWTH * (threshold - floor)
         threshold = grown if grown < past else 0.5 * (done + past)
+
+
+def _bounded_start(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_label: str, too_large: SizeLimitError | None):
+    """(pool, targets, core configurations, their :func:`feed_bound`) of a bounded search; the bound None when no core has a finite one.
+
+    Raises ``too_large`` (or a :class:`SizeLimitError` of its own) when the relaxed table is too large to bound.
+    """
+    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
+    targets = Targets.from_spec(spec)
+    cores = stage_cores(spec, pool, targets)
+    bound = feed_bound(spec, pool, targets, cores)
+    if bound is None:
+        raise too_large or SizeLimitError(f"more than {RELAXED_CELLS_MAX:,} stage configuration and heatsink pairs")
+    return pool, targets, cores, (bound if np.isfinite(bound.core_lb).any() else None)
+
+
+def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), time_limit: float | None = None,
+                       too_large: SizeLimitError | None = None) -> bool:
+    """Whether ``spec`` has any design, when its whole stage table is past the size limit.
+
+    :func:`run_bounded`'s tables, asked for any design
+    (:func:`~partpick.optimize.milp.has_design`) instead of the cheapest: a
+    design in a table is one of the whole catalogue (True); no core
+    configuration with a finite bound, or a table with every feed built and
+    no design, means none (False). The threshold grows geometrically
+    (:data:`BOUND_GROWTH`); a table past the size limit raises the
+    :class:`SizeLimitError` (neither answer is known), as does a relaxed
+    table too large to bound.
+    """
+    import time
+
+    from partpick.errors import SolverTimeout
+    from partpick.optimize.milp import FIRST_STEP, has_design
+
+    pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, "spec", too_large)
+    if bound is None:
+        return False
+    floor = float(np.min(bound.core_lb))
+    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
+    deadline = None if time_limit is None else time.monotonic() + time_limit
+    while True:
+        stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
+        asm = assemble(spec, pool, targets, stage)
+        if asm is not None and asm.problem is not None:
+            left = None if deadline is None else deadline - time.monotonic()
+            if left is not None and left <= 0:
+                raise SolverTimeout(time_limit)
+            if has_design(asm.problem, time_limit=left):
+                return True
+        if stage.cut_cores == 0:
+            return False
+        threshold = floor + BOUND_GROWTH * (threshold - floor)
 
 
 def proven_whole(result: DesignResult, sol: Solution) -> bool:

@@ -34,11 +34,17 @@ def _designs(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], time_limit:
     The same answer as ``run(...).feasible``, without proving a design the
     cheapest, which the searches for what would make a spec feasible never need.
     A search that finds nothing within ``time_limit`` raises
-    :class:`~partpick.errors.SolverTimeout` (neither answer is known).
+    :class:`~partpick.errors.SolverTimeout` (neither answer is known). Past
+    the stage size limit, the tables of a bounded search are asked
+    (:func:`~partpick.optimize.design.has_design_bounded`).
     """
+    from partpick.optimize.design import has_design_bounded
     from partpick.optimize.milp import has_design
 
-    result = prepare(spec, catalog, exclude=exclude)
+    try:
+        result = prepare(spec, catalog, exclude=exclude)
+    except SizeLimitError as exc:
+        return has_design_bounded(spec, catalog, exclude, time_limit, too_large=exc)
     return result.status == "prepared" and has_design(result.assembly.problem, time_limit=time_limit)
 
 

@@ -207,3 +207,28 @@ def test_cores_without_any_design_are_left_out_but_not_counted_as_cut(catalog) -
     assert len(bounded.configs) == int((whole.configs["feed"] == "resistor").sum())
     assert bounded.funnel[stage.ABOVE_BOUND] > 0  # cores only a current source could feed
     assert bounded.funnel["bias feed (s.3)"] <= whole.funnel["bias feed (s.3)"]
+
+
+@pytest.mark.parametrize("name, power", [("bench", 20.0), ("bench", 30.0), ("bench", 26.5), ("desk", 1.5)])
+def test_any_design_on_bounded_tables_agrees_with_the_whole_table(name, power, catalog) -> None:
+    from partpick.optimize.design import has_design_bounded
+
+    base = load_spec(EXAMPLES / ("bench_2x25w_split.toml" if name == "bench" else "desk_2ch_12v_single.toml"))
+    spec = spec_at(base, "power", power)
+    assert has_design_bounded(spec, catalog) == run(spec, catalog).feasible
+
+
+def test_feasibility_suggestions_past_the_limit_equal_the_whole_tables(catalog, monkeypatch) -> None:
+    """The bench example at 30 W has no design; its trials at lower powers pass a limit of 1,000 configurations."""
+    from partpick.optimize import explain
+
+    spec = _bench(30.0)
+    whole = explain.suggestions(spec, catalog, (), [])
+    calls = []
+    real = design.has_design_bounded
+    monkeypatch.setattr(design, "has_design_bounded", lambda *a, **k: calls.append(a) or real(*a, **k))
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)
+    notes: list[str] = []
+    assert explain.suggestions(spec, catalog, (), notes) == whole
+    assert notes == [] and calls
+    assert whole["highest_feasible_power_w"] < 30.0
