@@ -347,9 +347,12 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     mask = (k["feed"].to_numpy() == other).astype(float)
     if result.stage.cost_bound is not None and other == "current_source":
         # The design's table holds only the current-source configurations under
-        # its cost bound (design.run_bounded): design that feed on its own.
+        # its cost bound (design.run_bounded): design that feed on its own, bounded
+        # again (its table is most of the one that passed the limit).
+        from partpick.optimize.design import run_bounded
+
         try:
-            alone = run(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver, time_limit=time_limit)
+            alone = run_bounded(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver, time_limit=time_limit)
         except (SolverTimeout, SizeLimitError):
             return None
         if alone.feasible:

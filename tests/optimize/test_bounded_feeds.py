@@ -169,7 +169,10 @@ def test_the_command_designs_past_the_limit_and_says_how(catalog, monkeypatch, t
 
     spec_file = tmp_path / "bench20.toml"
     spec_file.write_text((EXAMPLES / "bench_2x25w_split.toml").read_text(encoding="utf-8").replace("power_w = 25.0", "power_w = 20.0"), encoding="utf-8")
+    from partpick.optimize.explain import compare_feeds
+
     whole = run(load_spec(spec_file), catalog)
+    other_feed = compare_feeds(whole, catalog)
     monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)  # the whole table has 2,901 rows
     report = tmp_path / "r.json"
     code = main(["--no-color", "design", str(spec_file), "--catalog", str(DEMO_CATALOG), "--json", str(report)])
@@ -179,6 +182,7 @@ def test_the_command_designs_past_the_limit_and_says_how(catalog, monkeypatch, t
     rep = json.loads(report.read_text(encoding="utf-8"))
     assert rep["totals"]["total"] == pytest.approx(round(whole.solution.total, 2))
     assert any("whose cost bound is at or below" in w for w in rep["warnings"])
+    assert rep["design"]["bias_feed_alternative"] == other_feed  # the chosen feed is the resistor: the other one designed bounded
     assert "still the cheapest of the whole catalogue" in " ".join(out.out.split())
 
 
