@@ -93,6 +93,17 @@ class OrderSpec(_Section):
     suppliers: tuple[str, ...] = Field(default=(), strict=False)
     exclude: tuple[str, ...] = Field(default=(), strict=False)
 
+    @property
+    def factor(self) -> float:
+        """Boards x (1 + spares/100): what a part's per-board count is multiplied by in the order."""
+        return self.boards * (1.0 + self.spares_pct / 100.0)
+
+
+def order_units(per_board: float, factor: float) -> float:
+    """Units of a part the order needs for ``per_board`` per board, before rounding up: per board x
+    ``factor``, rounded to 6 decimals against float noise (the one rounding of the optimiser and its bounds)."""
+    return round(per_board * factor, 6)
+
 
 class Spec(BaseModel):
     """One amplifier to design: every key of the spec file, defaults filled in."""

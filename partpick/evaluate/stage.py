@@ -45,7 +45,7 @@ from partpick.model.defaults import (
     RE_MIN_OHM,
     RESISTOR_POWER_MARGIN,
 )
-from partpick.spec import Spec
+from partpick.spec import Spec, order_units
 
 #: Smallest current a current-source feed is designed for [A] (common practice:
 #: a few mA keeps the bias string's diodes conducting).
@@ -93,9 +93,8 @@ class StageTable:
     #: rows are only those whose cost bound is at or below it. None: every row.
     cost_bound: float | None = None
     #: Core configurations whose current-source feeds a :class:`FeedBound` cut short
-    #: (0: the table is the whole one). ``cores``: core configurations evaluated for feeds.
+    #: (0: the table is the whole one).
     cut_cores: int = 0
-    cores: int = 0
 
     def reason(self, row: pd.Series | dict) -> str:
         """The sentence, with its numbers, for one row of ``rejected`` (built on demand)."""
@@ -177,7 +176,7 @@ class FeedBound:
     factor: float  # boards x (1 + spares)
 
     def units(self, per_board: float) -> float:
-        return round(per_board * self.factor, 6)
+        return order_units(per_board, self.factor)
 
 
 # --------------------------------------------------------------------------- rails
@@ -530,7 +529,7 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = 
         re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=rejected,
         considered=c.considered, explain=explain,
         cost_bound=None if feed_bound is None else feed_bound.threshold,
-        cut_cores=fed.cut, cores=len(core),
+        cut_cores=fed.cut,
     )
 
 
@@ -653,10 +652,10 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     else:
         res_ok = np.zeros(n, dtype=bool)
     ccs_ok = np.zeros(n, dtype=bool)
+    skipped = np.zeros(n, dtype=bool)  # some current-source feed left out by the bound
+    cut = np.zeros(n, dtype=bool)  # ... at a finite bound: a higher threshold would build it
     if mode in ("current_source", "auto"):
         n_opts = sum(len(o) for o in options)
-        skipped = np.zeros(n, dtype=bool)  # some feed left out by the bound
-        cut = np.zeros(n, dtype=bool)  # ... at a finite bound: a higher threshold would build it
         for idx, frame, n_new, make_options, limits in _ccs_variants(spec, pool, targets, core, fams, sink, bound, skipped, cut):
             n_opts += n_new
             if offset + len(idx) > STAGE_ROWS_MAX or n_opts > FEED_OPTIONS_MAX:
@@ -672,7 +671,7 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
             ccs_ok[idx] = True
     columns = ["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"]
     served = res_ok | ccs_ok
-    above = skipped & ~served if mode in ("current_source", "auto") else np.zeros(n, dtype=bool)
+    above = skipped & ~served
     unserved = np.flatnonzero(~served & ~above)
     return _Feeds(
         rows=pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=columns),
@@ -681,7 +680,7 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
         unserved=unserved,
         unserved_r1_max=r1_max[unserved] if mode != "current_source" else np.full(len(unserved), np.nan),
         above_bound=np.flatnonzero(above),
-        cut=int(cut.sum()) if mode in ("current_source", "auto") else 0,
+        cut=int(cut.sum()),
     )
 
 
@@ -738,10 +737,11 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
             if bound is not None:
                 parts = (bound.units(targets.channels) * (bound.transistor_price[s.npn_i] + bound.transistor_price[s.pnp_i])
                          + bound.units(2 * targets.channels * per) * bound.diode_price[d_i])
-                under = bound.core_lb + parts <= bound.threshold
-                skipped |= room & ~under
-                cut |= room & ~under & np.isfinite(bound.core_lb + parts)
-                room &= under
+                lb = bound.core_lb + parts
+                left_out = room & (lb > bound.threshold)
+                skipped |= left_out
+                cut |= left_out & np.isfinite(lb)
+                room &= ~left_out
             if not room.any():
                 continue
             # Families of one E-series and value range give the same resistor

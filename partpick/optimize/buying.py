@@ -38,6 +38,11 @@ def usable(offers: Iterable[Offer]) -> list[tuple[str, int, float, int]]:
     return out
 
 
+def least_unit_price(offers: Iterable[Offer]) -> float:
+    """The lowest unit price of the offers that can be bought at all (:func:`usable`); ``inf`` when none can."""
+    return min((p for _s, _low, p, _st in usable(offers)), default=math.inf)
+
+
 def cheapest_purchase(offers: list[Offer], need: int) -> float:
     """Lowest parts cost of at least ``need`` units of one line, order fees left out.
 

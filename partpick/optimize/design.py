@@ -171,10 +171,8 @@ def run_bounded(
     is the last threshold: the design's table holds every configuration of
     any design that costs no more.
     """
-    import time
-
     from partpick.errors import SolverTimeout
-    from partpick.optimize.milp import FIRST_STEP, _tie_margin, objective_value
+    from partpick.optimize.milp import _clock, _tie_margin, first_threshold, objective_value
 
     spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": "cost"})})
     pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, spec_label, too_large)
@@ -183,8 +181,8 @@ def run_bounded(
         # says why configuration by configuration, is too large to build.
         raise too_large or SizeLimitError("no design, and too many stage configurations to say why")
     floor = float(np.min(bound.core_lb))
-    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
-    deadline = None if time_limit is None else time.monotonic() + time_limit
+    threshold = first_threshold(floor)
+    deadline = None if time_limit is None else _clock() + time_limit
     best: DesignResult | None = None  # the cheapest design found, not yet proven
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
     splits = 0
@@ -204,7 +202,7 @@ def run_bounded(
         status = "infeasible" if asm is None or asm.problem is None else "prepared"
         result = DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings))
         if status == "prepared":
-            left = None if deadline is None else deadline - time.monotonic()
+            left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
                 if best is None:
                     raise SolverTimeout(time_limit)
@@ -218,10 +216,8 @@ def run_bounded(
                 reach = objective_value(asm.problem, result.solution) + _tie_margin(asm.problem, result.solution)
                 if reach <= threshold:
                     result.warnings.append(
-                        f"the current-source bias feed gives more stage configurations than one run holds "
-                        f"({stage_rules.STAGE_ROWS_MAX:,}): partpick built the {len(stage.configs):,} whose cost bound is at or "
-                        f"below {threshold:.2f} {pool.currency}, which hold every design that costs no more, "
-                        f"so this design is still the cheapest of the whole catalogue"
+                        f"{_past_limit()}: partpick built {_bounded_rows(result)}, which hold every design that costs "
+                        f"no more, so this design is still the cheapest of the whole catalogue"
                     )
                     return result
                 if best is None or result.solution.total < best.solution.total:
@@ -262,22 +258,20 @@ def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = 
     :class:`SizeLimitError` (neither answer is known), as does a relaxed
     table too large to bound.
     """
-    import time
-
     from partpick.errors import SolverTimeout
-    from partpick.optimize.milp import FIRST_STEP, has_design
+    from partpick.optimize.milp import _clock, first_threshold, has_design
 
     pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, "spec", too_large)
     if bound is None:
         return False
     floor = float(np.min(bound.core_lb))
-    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
-    deadline = None if time_limit is None else time.monotonic() + time_limit
+    threshold = first_threshold(floor)
+    deadline = None if time_limit is None else _clock() + time_limit
     while True:
         stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
         asm = assemble(spec, pool, targets, stage)
         if asm is not None and asm.problem is not None:
-            left = None if deadline is None else deadline - time.monotonic()
+            left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
                 raise SolverTimeout(time_limit)
             if has_design(asm.problem, time_limit=left):
@@ -306,16 +300,22 @@ def proven_whole(result: DesignResult, sol: Solution) -> bool:
     return objective_value(problem, sol) + _tie_margin(problem, sol) <= bound
 
 
+def _past_limit() -> str:
+    """The bounded route's warnings' opening (the limit read when they are written: tests lower it)."""
+    return f"the current-source bias feed gives more stage configurations than one run holds ({stage_rules.STAGE_ROWS_MAX:,})"
+
+
 def _unproven(result: DesignResult, why: str) -> DesignResult:
     """A bounded round's design whose proof could not be finished, marked so with ``why``."""
     result.status = "not proven optimal"
     result.solution.status = "not proven optimal"
-    result.warnings.append(
-        f"the current-source bias feed gives more stage configurations than one run holds ({stage_rules.STAGE_ROWS_MAX:,}); "
-        f"this design comes from the {len(result.stage.configs):,} whose cost bound is at or below "
-        f"{result.stage.cost_bound:.2f} {result.pool.currency}, and {why}"
-    )
+    result.warnings.append(f"{_past_limit()}; this design comes from {_bounded_rows(result)}, and {why}")
     return result
+
+
+def _bounded_rows(result: DesignResult) -> str:
+    """What a bounded table holds, for the warnings: its rows and its cost bound."""
+    return f"the {len(result.stage.configs):,} whose cost bound is at or below {result.stage.cost_bound:.2f} {result.pool.currency}"
 
 
 def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores) -> FeedBound | None:
@@ -331,11 +331,10 @@ def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores) -> F
     if len(relaxed.configs) * max(len(pool.heatsinks), 1) > RELAXED_CELLS_MAX:
         return None
     rasm = assemble(spec, pool, targets, relaxed)
-    core_lb = np.full(relaxed.cores, np.inf)
+    core_lb = np.full(len(cores.core), np.inf)
     if rasm is not None and rasm.problem is not None:
         core_lb[relaxed.configs["core_i"].to_numpy(int)] = design_bounds(rasm.problem)["stage"]
-    factor = spec.order.boards * (1.0 + spec.order.spares_pct / 100.0)
-    return FeedBound(core_lb, math.inf, *_feed_prices(pool), factor)
+    return FeedBound(core_lb, math.inf, *_feed_prices(pool), spec.order.factor)
 
 
 def _feed_prices(pool: Pool) -> tuple[np.ndarray, np.ndarray]:

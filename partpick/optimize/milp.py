@@ -37,6 +37,7 @@ import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
 from partpick.optimize.buying import cheapest_purchase, smallest_qty, useful_breaks
+from partpick.spec import order_units
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
 TIE_WEIGHT = 1e-4
@@ -341,7 +342,7 @@ def has_design(problem: Problem, solver: str = "cbc", time_limit: float | None =
     if span is None:
         return False
     floor, top = span
-    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
+    threshold = first_threshold(floor)
     no_design = -1  # options in the last set solved (none had a design); see _widen
     while True:
         inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
@@ -569,7 +570,7 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
     if span is None:
         return _infeasible(solver)
     floor, top = span
-    threshold = floor + max(FIRST_STEP * abs(floor), 1.0)
+    threshold = first_threshold(floor)
     best: Solution | None = start
     if start is not None:
         threshold = min(top, max(threshold, objective_value(problem, start) + _tie_margin(problem, start)))
@@ -628,6 +629,11 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
         if threshold >= top:
             return sol if sol is not None else _infeasible(solver)
         threshold = min(top, floor + GROWTH * (threshold - floor))
+
+
+def first_threshold(floor: float) -> float:
+    """The first threshold of a search over cost bounds whose least is ``floor``: :data:`FIRST_STEP` of it above (at least 1)."""
+    return floor + max(FIRST_STEP * abs(floor), 1.0)
 
 
 def _bound_span(bound: dict[str, np.ndarray]) -> tuple[float, float] | None:
@@ -927,7 +933,7 @@ def _line_units(problem: Problem, x: dict[str, list[pulp.LpVariable]]
         for i, usage in enumerate(g.usage):
             v = x[gname][i]
             for line, per_board, _role in usage:
-                units = round(per_board * problem.factor, 6)
+                units = order_units(per_board, problem.factor)
                 terms = per_option.setdefault(line, {})
                 total = terms[v.name][1] + units if v.name in terms else units
                 terms[v.name] = (v, total)

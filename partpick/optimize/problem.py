@@ -220,8 +220,7 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     couplings = _couplings(targets, k, op, d_ok, i_fb, c_slew)
     offers = _offers(pool, lines)
     fees = dict(zip(pool.suppliers["supplier"], pool.suppliers["order_fee"].astype(float)))
-    factor = spec.order.boards * (1.0 + spec.order.spares_pct / 100.0)
-    problem = Problem(groups, couplings, offers, fees, factor, spec.order.objective)
+    problem = Problem(groups, couplings, offers, fees, spec.order.factor, spec.order.objective)
     return Assembly(problem, tables, lines, funnel, candidates)
 
 
@@ -320,11 +319,11 @@ def _offers(pool: Pool, lines: dict[str, tuple[str, float | None]]) -> dict[str,
 
 def price_floor(pool: Pool, mpns) -> np.ndarray:
     """The least unit price at which each of ``mpns`` can be bought (``inf``: no usable offer), from :func:`_offers`."""
-    from partpick.optimize.buying import usable
+    from partpick.optimize.buying import least_unit_price
 
     names = list(mpns)
     offers = _offers(pool, {m: (m, None) for m in set(names)})
-    least = {m: min((p for _s, _low, p, _st in usable(o)), default=math.inf) for m, o in offers.items()}
+    least = {m: least_unit_price(o) for m, o in offers.items()}
     return np.array([least[m] for m in names], dtype=float)
 
 

@@ -38,8 +38,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partpick.optimize.buying import cheapest_of_rows, cheapest_purchase, rows_no_dearer, usable
+from partpick.optimize.buying import cheapest_of_rows, cheapest_purchase, least_unit_price, rows_no_dearer, usable
 from partpick.optimize.milp import Coupling, Group, Problem, set_classes
+from partpick.spec import order_units
 
 #: Largest number of options compared pairwise in one block of a group.
 BLOCK_PAIRS = 4_000_000
@@ -117,7 +118,7 @@ def forced_only(problem: Problem) -> dict[str, np.ndarray]:
 
 
 def _units(problem: Problem, per_board: float) -> float:
-    return round(per_board * problem.factor, 6)
+    return order_units(per_board, problem.factor)
 
 
 def _needs(problem: Problem, g: str) -> tuple[np.ndarray, np.ndarray, list[str], np.ndarray]:
@@ -180,8 +181,7 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
     needs = needs if needs is not None else _all_needs(problem)
     users = _line_users(needs)
     memo: dict[tuple[str, int], float] = {}
-    pmin = {line: min((p for _s, _low, p, _st in usable(offers)), default=math.inf)
-            for line, offers in problem.line_offers.items()}
+    pmin = {line: least_unit_price(offers) for line, offers in problem.line_offers.items()}
     out = {}
     for g, grp in problem.groups.items():
         opt, ids, names, units = needs[g]
