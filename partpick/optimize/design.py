@@ -40,6 +40,21 @@ BOUND_SPLITS = 4
 
 
 @dataclass
+class BoundedSearch:
+    """What :func:`run_bounded`'s rounds start from: the catalogue, the core configurations and their bounds."""
+
+    catalog: Catalog
+    cores: StageCores
+    bound: FeedBound  # threshold left at inf
+    forbidden: tuple[str, ...] = ()  # mpns no option may use (:func:`design_without`)
+
+    @property
+    def floor(self) -> float:
+        """The least core bound: no design costs less."""
+        return float(np.min(self.bound.core_lb))
+
+
+@dataclass
 class DesignResult:
     spec: Spec
     pool: Pool
@@ -50,6 +65,8 @@ class DesignResult:
     check: SelectionCheck | None
     status: str
     warnings: list[str] = field(default_factory=list)
+    #: A bounded run's search (:func:`run_bounded`), kept so that later steps can search on; None on a whole table.
+    search: BoundedSearch | None = None
 
     @property
     def feasible(self) -> bool:
@@ -82,10 +99,10 @@ def finish(result: DesignResult, *, solver: str = "cbc", time_limit: float | Non
     asm = result.assembly
     sol = solve(asm.problem, solver=solver, time_limit=time_limit)
     if sol.status == "infeasible":
-        return DesignResult(result.spec, result.pool, result.targets, result.stage, asm, sol, None, "infeasible", result.warnings)
+        return replace(result, solution=sol, status="infeasible")
     check = check_chosen(result.spec, result.pool, result.targets, result.stage, asm, sol.choice)
     status = "ok" if sol.status == "optimal" else "not proven optimal"
-    return DesignResult(result.spec, result.pool, result.targets, result.stage, asm, sol, check, status, result.warnings + check.warnings)
+    return replace(result, solution=sol, check=check, status=status, warnings=result.warnings + check.warnings)
 
 
 def run(
@@ -171,17 +188,67 @@ def run_bounded(
     is the last threshold: the design's table holds every configuration of
     any design that costs no more.
     """
-    from partpick.errors import SolverTimeout
-    from partpick.optimize.milp import _clock, _tie_margin, first_threshold, objective_value
-
     spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": "cost"})})
     pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, spec_label, too_large)
     if bound is None:
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
         raise too_large or SizeLimitError("no design, and too many stage configurations to say why")
-    floor = float(np.min(bound.core_lb))
-    threshold = first_threshold(floor)
+    return _bounded_rounds(spec, pool, targets, BoundedSearch(catalog, cores, bound), solver=solver, forced=forced,
+                           time_limit=time_limit)
+
+
+def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: str = "cbc", time_limit: float | None = None,
+                   start: Solution | None = None) -> DesignResult:
+    """A bounded design's spec designed again without the parts ``sources`` (mpns): its search, continued.
+
+    The rounds of :func:`run_bounded` run again on the same core
+    configurations and bounds, with every option that uses one of the parts
+    forbidden (the same as excluding them: the evaluation's filters only
+    remove what no design could use). Leaving parts out only removes
+    designs, so the bounds still hold; the relaxed table is not built again,
+    nor the whole table tried.
+
+    ``start``: a solve of ``result``'s problem without the parts (what
+    :func:`~partpick.optimize.revise.stock_risk` has found first). When it
+    has a design of cost z, the first table is the one under z plus the
+    tie-break margin: it holds every cheaper design, so one round proves the
+    optimum unless its table is past the size limit. When it has none, the
+    table under ``result``'s cost bound holds no design without the parts,
+    and the threshold starts one growth step above it.
+    """
+    from partpick.optimize.milp import _tie_margin, objective_value
+
+    if result.search is None:
+        raise ValueError("design_without continues a bounded design only")
+    forbidden = result.search.forbidden + tuple(sources)
+    bound = feed_bound(result.spec, result.pool, result.targets, result.search.cores, forbidden)
+    if bound is None or not np.isfinite(bound.core_lb).any():
+        raise SizeLimitError("no design without " + ", ".join(sources) + ", and too many stage configurations to say why")
+    search = replace(result.search, bound=bound, forbidden=forbidden)
+    problem = result.assembly.problem
+    if start is not None and start.status != "infeasible":
+        threshold = objective_value(problem, start) + _tie_margin(problem, start)
+    else:
+        # The parts' bounds only rose, so the table under the cost bound still has no design.
+        threshold = search.floor + BOUND_GROWTH * (result.stage.cost_bound - search.floor)
+    return _bounded_rounds(result.spec, result.pool, result.targets, search, solver=solver, time_limit=time_limit,
+                           threshold=threshold)
+
+
+def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSearch, *, solver: str,
+                    forced: dict[str, str] | None = None, time_limit: float | None = None,
+                    threshold: float | None = None) -> DesignResult:
+    """:func:`run_bounded`'s rounds over ``search``, from ``threshold`` (default: the first above the least bound).
+
+    The search's ``forbidden`` parts are forbidden in every round (:func:`forbid_parts`).
+    """
+    from partpick.errors import SolverTimeout
+    from partpick.optimize.milp import _clock, _tie_margin, first_threshold, objective_value
+
+    bound, cores, catalog = search.bound, search.cores, search.catalog
+    floor = search.floor
+    threshold = first_threshold(floor) if threshold is None else max(threshold, first_threshold(floor))
     deadline = None if time_limit is None else _clock() + time_limit
     best: DesignResult | None = None  # the cheapest design found, not yet proven
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
@@ -200,7 +267,9 @@ def run_bounded(
         done = threshold
         asm = assemble(spec, pool, targets, stage)
         status = "infeasible" if asm is None or asm.problem is None else "prepared"
-        result = DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings))
+        if status == "prepared" and search.forbidden:
+            forbid_parts(asm, search.forbidden)
+        result = DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings), search)
         if status == "prepared":
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
@@ -318,14 +387,16 @@ def _bounded_rows(result: DesignResult) -> str:
     return f"the {len(result.stage.configs):,} whose cost bound is at or below {result.stage.cost_bound:.2f} {result.pool.currency}"
 
 
-def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores) -> FeedBound | None:
+def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, forbidden: tuple[str, ...] = ()) -> FeedBound | None:
     """:func:`run_bounded`'s bounds (threshold left at ``inf``); None when the relaxed table is too large to bound.
 
     ``core_lb``: :func:`~partpick.optimize.prune.design_bounds` of the relaxed
     table's stage options, per core configuration (``inf`` where the relaxed
-    table has no design).
+    table has no design). ``forbidden``: mpns no design may use; the relaxed
+    table's options that use one are left out before the bounds, and their
+    prices are ``inf`` (as if the parts were not in the catalogue).
     """
-    from partpick.optimize.prune import design_bounds
+    from partpick.optimize.prune import design_bounds, restrict
 
     relaxed = evaluate_stage(spec, pool, targets, relaxed=True, cores=cores)
     if len(relaxed.configs) * max(len(pool.heatsinks), 1) > RELAXED_CELLS_MAX:
@@ -333,8 +404,16 @@ def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores) -> F
     rasm = assemble(spec, pool, targets, relaxed)
     core_lb = np.full(len(cores.core), np.inf)
     if rasm is not None and rasm.problem is not None:
-        core_lb[relaxed.configs["core_i"].to_numpy(int)] = design_bounds(rasm.problem)["stage"]
-    return FeedBound(core_lb, math.inf, *_feed_prices(pool), spec.order.factor)
+        problem = rasm.problem
+        keep = {g: np.flatnonzero(~bad) for g, bad in _using(rasm, forbidden).items()}
+        if all(len(k) for k in keep.values()):
+            lb = np.full(len(problem.groups["stage"]), np.inf)
+            lb[keep["stage"]] = design_bounds(restrict(problem, keep) if forbidden else problem)["stage"]
+            core_lb[relaxed.configs["core_i"].to_numpy(int)] = lb
+    transistor_price, diode_price = _feed_prices(pool)
+    transistor_price[pool.transistors["mpn"].isin(forbidden).to_numpy()] = np.inf
+    diode_price[pool.diodes["mpn"].isin(forbidden).to_numpy()] = np.inf
+    return FeedBound(core_lb, math.inf, transistor_price, diode_price, spec.order.factor)
 
 
 def _feed_prices(pool: Pool) -> tuple[np.ndarray, np.ndarray]:
@@ -342,6 +421,25 @@ def _feed_prices(pool: Pool) -> tuple[np.ndarray, np.ndarray]:
     from partpick.optimize.problem import price_floor
 
     return price_floor(pool, pool.transistors["mpn"]), price_floor(pool, pool.diodes["mpn"])
+
+
+def forbid_parts(asm: Assembly, sources: tuple[str, ...]) -> None:
+    """Forbid every option that uses one of ``sources`` (mpns or families), group by group."""
+    from partpick.optimize.milp import Coupling
+
+    for g, bad in _using(asm, sources).items():
+        if bad.any():
+            asm.problem.couplings.append(Coupling(f"without {', '.join(sources)}", {g: bad.astype(float)}, "<=", 0.0))
+
+
+def _using(asm: Assembly, sources: tuple[str, ...]) -> dict[str, np.ndarray]:
+    """Per group, which options use one of ``sources``."""
+    names = set(sources)
+    lines = {line for line, (src, _value) in asm.lines.items() if src in names}
+    if not lines:
+        return {g: np.zeros(len(grp), dtype=bool) for g, grp in asm.problem.groups.items()}
+    return {g: np.fromiter((any(line in lines for line, _q, _r in use) for use in grp.usage), bool, len(grp))
+            for g, grp in asm.problem.groups.items()}
 
 
 def force_part(asm: Assembly, role: str, mpn: str) -> bool:

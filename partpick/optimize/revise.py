@@ -278,9 +278,9 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     On a design found on a bounded stage table (:func:`~partpick.optimize.design.run_bounded`),
     a re-solve is proven only when it costs no more than the table's cost
     bound (:func:`~partpick.optimize.design.proven_whole`); for the others
-    the spec is designed anew without the part (a run of its own, bounded
-    again if need be), and when that stops at a limit the row says "not
-    proven" in ``replacement``.
+    the bounded search goes on without the part, from the re-solve's design
+    (:func:`~partpick.optimize.design.design_without`), and when that stops
+    at a limit the row says "not proven" in ``replacement``.
     """
     from partpick.errors import SolverTimeout
     from partpick.optimize.milp import solve
@@ -316,8 +316,8 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
             used = asm  # the assembly alt solves
             whole = alt is None or proven_whole(result, alt)
             if not whole:
-                # Past the bounded table's cost bound: design again without the part (its own bounded table).
-                again = _designed_without(result, src, solver, time_limit)
+                # Past the bounded table's cost bound: the bounded search goes on without the part.
+                again = _designed_without(result, src, solver, time_limit, alt)
                 if again is not None:
                     (used, alt), whole = again, True
             total = replacement = None
@@ -336,16 +336,20 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     return risks
 
 
-def _designed_without(result: DesignResult, src: str, solver: str, time_limit: float | None):
+def _designed_without(result: DesignResult, src: str, solver: str, time_limit: float | None, start):
     """``result``'s spec designed anew without ``src``: (its assembly, its solution), the solution
-    infeasible when no design exists; None when that run stops at a limit."""
+    infeasible when no design exists; None when that run stops at a limit.
+
+    ``result`` is a bounded design: its search goes on without the part
+    (:func:`~partpick.optimize.design.design_without`), from ``start``, the
+    re-solve of its own table without the part.
+    """
     from partpick.errors import SizeLimitError, SolverTimeout
-    from partpick.optimize.design import run
+    from partpick.optimize.design import design_without
     from partpick.optimize.milp import _infeasible
 
-    excluded = tuple(m for m, why in result.pool.left_out.items() if why == "excluded")
     try:
-        again = run(result.spec, result.pool.catalog, exclude=excluded + (src,), solver=solver, time_limit=time_limit)
+        again = design_without(result, (src,), solver=solver, time_limit=time_limit, start=start)
     except (SizeLimitError, SolverTimeout):
         return None
     return again.assembly, again.solution if again.solution is not None else _infeasible(solver)

@@ -16,9 +16,9 @@ from partpick.errors import SizeLimitError
 from partpick.evaluate import stage
 from partpick.evaluate.context import Targets, make_pool
 from partpick.optimize import design
-from partpick.optimize.design import prepare, proven_whole, run
+from partpick.optimize.design import design_without, forbid_parts, option_sources, prepare, proven_whole, run
 from partpick.optimize.explain import _with, alternatives
-from partpick.optimize.milp import solve
+from partpick.optimize.milp import rules_kept, solve
 from partpick.optimize.problem import assemble, price_floor
 from partpick.optimize.revise import stock_risk
 from partpick.optimize.sweep import spec_at
@@ -147,6 +147,50 @@ def test_stock_risk_and_alternatives_of_a_bounded_design_are_exact_or_say_not_pr
             assert a.solution.total == pytest.approx(w, abs=1e-6) and a.solution.total <= bounded.stage.cost_bound
         else:
             assert a.status == "not proven optimal" and a.solution.total > bounded.stage.cost_bound
+
+
+@pytest.mark.parametrize("name, share", [("bench 20 W auto", 1.0), ("bench 22 W current source", 0.25)])
+def test_designing_on_without_a_part_equals_excluding_it_from_the_whole_table(name, share, catalog, monkeypatch) -> None:
+    """design_without (the bounded search continued, the part forbidden) against run(..., exclude=(part,)) on the whole table.
+
+    Both of its starts: none (the threshold grows from the cost bound) and the
+    design the bounded table itself has without the part. The size limit is
+    ``share`` of the whole table (less one row).
+    """
+    spec = CASES[name]()
+    rows = len(run(spec, catalog).stage.configs)
+    limit = int(share * rows) - 1
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", limit)
+    bounded = run(spec, catalog)
+    assert bounded.search is not None and bounded.stage.cost_bound is not None
+    families = set(bounded.pool.passives["family"])
+    parts = sorted({src for g, o in bounded.solution.choice.items() for src, _q, _r in option_sources(bounded, g, o)} - families)
+    assert len(parts) >= 5
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 10 * rows)
+    expected = {src: run(spec, catalog, exclude=(src,)) for src in parts}
+    assert all(e.stage.cost_bound is None for e in expected.values())
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", limit)
+    problem = bounded.assembly.problem
+    beyond = proven = 0
+    for src in parts:
+        with rules_kept(problem):
+            forbid_parts(bounded.assembly, (src,))
+            start = solve(problem)
+        if proven_whole(bounded, start):
+            continue
+        beyond += 1
+        for first in (None, start):
+            again = design_without(bounded, (src,), start=first)
+            want = expected[src]
+            assert src not in {s for g, o in again.solution.choice.items() for s, _q, _r in option_sources(again, g, o)}
+            assert not again.check.failing()
+            if again.status == "not proven optimal":  # its tables passed the limit: never cheaper than the whole's
+                assert again.solution.total >= want.solution.total - 1e-6
+            else:
+                assert again.status == want.status == "ok", (src, first is None)
+                assert again.solution.total == pytest.approx(want.solution.total, abs=1e-6)
+                proven += 1
+    assert beyond > 0 and proven > 0  # the bounded table alone did not prove some: the search went on and proved them
 
 
 def test_the_bounded_route_is_for_the_cost_objective_alone(catalog, monkeypatch) -> None:
