@@ -26,6 +26,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass, field, replace
+from typing import ClassVar
 
 import numpy as np
 import pandas as pd
@@ -92,6 +93,9 @@ class StageTable:
     #: The cost threshold of a bounded table (:class:`FeedBound`): its current-source
     #: rows are only those whose cost bound is at or below it. None: every row.
     cost_bound: float | None = None
+    #: The changed-roles level of a table built for a re-design (:class:`ChangeBound`):
+    #: its current-source rows are only those with at most that many changes of their own.
+    change_bound: float | None = None
     #: Core configurations whose current-source feeds a :class:`FeedBound` cut short
     #: (0: the table is the whole one).
     cut_cores: int = 0
@@ -175,8 +179,47 @@ class FeedBound:
     diode_price: np.ndarray  # least unit price per pool.diodes row
     factor: float  # boards x (1 + spares)
 
+    #: The funnel's entry for the core configurations left without a feed.
+    label: ClassVar[str] = "feeds not built: cost bound above the search threshold"
+
     def units(self, per_board: float) -> float:
         return order_units(per_board, self.factor)
+
+    def row_bound(self, s, d_i: int, per: int, channels: int) -> np.ndarray:
+        """The bound of every core configuration fed by source pair ``s`` and reference ``d_i`` (``per`` in series)."""
+        parts = (self.units(channels) * (self.transistor_price[s.npn_i] + self.transistor_price[s.pnp_i])
+                 + self.units(2 * channels * per) * self.diode_price[d_i])
+        return self.core_lb + parts
+
+
+@dataclass
+class ChangeBound:
+    """Which current-source feeds a re-design builds: those with at most ``threshold`` changed roles of their own.
+
+    A feed row (core configuration c, source pair and reference v) gets the
+    bound ``core_lb[c] + changes(v)``: ``core_lb`` the output roles
+    (``output_npn``, ``output_pnp``) whose part differs from the previous
+    design's, and ``changes(v)`` the same for ``bias_source_transistor`` and
+    ``bias_source_reference``. Each counts a role whose set of parts differs
+    (or that the previous design did not have), so the bound is at most the
+    design's changed roles, every other role counting 0. Rows above the
+    threshold are not built: no design holding one changes fewer roles.
+    Resistor feeds are all built.
+    """
+
+    core_lb: np.ndarray  # per core configuration
+    threshold: float
+    transistor_mpn: np.ndarray  # per pool.transistors row
+    diode_mpn: np.ndarray  # per pool.diodes row
+    source_pair: frozenset[str] | None  # the previous design's source transistors; None: it had none
+    reference: frozenset[str] | None  # its reference parts; None: it had none
+
+    label: ClassVar[str] = "feeds not built: more changed roles than the search level"
+
+    def row_bound(self, s, d_i: int, per: int, channels: int) -> np.ndarray:
+        pair = frozenset((self.transistor_mpn[s.npn_i], self.transistor_mpn[s.pnp_i]))
+        own = float(pair != self.source_pair) + float(frozenset((self.diode_mpn[d_i],)) != self.reference)
+        return self.core_lb + own
 
 
 # --------------------------------------------------------------------------- rails
@@ -360,7 +403,7 @@ def re_options(pool: Pool, targets: Targets) -> pd.DataFrame:
 
 
 #: The funnel's entry for core configurations a :class:`FeedBound` left without a feed.
-ABOVE_BOUND = "feeds not built: cost bound above the search threshold"
+ABOVE_BOUND = FeedBound.label
 
 FIRST_FAIL_ORDER = (
     "transistor headroom (s.3)",
@@ -465,7 +508,7 @@ def stage_cores(spec: Spec, pool: Pool, targets: Targets) -> StageCores:
 
 
 def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = False,
-                   feed_bound: FeedBound | None = None, cores: StageCores | None = None) -> StageTable:
+                   feed_bound: FeedBound | ChangeBound | None = None, cores: StageCores | None = None) -> StageTable:
     """Every stage configuration with its margins; the feasible ones with coupling numbers.
 
     ``relaxed``: one row per core configuration instead, fed by no parts
@@ -473,7 +516,9 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = 
     bias-feed option with no lines): every constraint of a real row of that
     core holds for it, so a design's cost with it bounds from below the cost
     of any design with that core and any feed (what :class:`FeedBound` needs).
-    ``feed_bound``: build only the current-source rows under its threshold.
+    ``feed_bound``: build only the current-source rows under its threshold
+    (a :class:`FeedBound` sets the table's ``cost_bound``, a
+    :class:`ChangeBound` its ``change_bound``).
     ``cores``: :func:`stage_cores` of the same spec, pool and targets, when
     the caller has it (a bounded search evaluates feeds several times).
     """
@@ -497,8 +542,8 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = 
     unserved = fed.unserved
     funnel["bias feed (s.3)"] = int(len(unserved))
     if feed_bound is not None:
-        # Not rejected by a constraint: their feeds were not built (FeedBound).
-        funnel[ABOVE_BOUND] = int(len(fed.above_bound))
+        # Not rejected by a constraint: their feeds were not built (the bound).
+        funnel[feed_bound.label] = int(len(fed.above_bound))
     feed_rejected = core.iloc[unserved].copy()
     feed_rejected["rejected_by"] = "bias feed (s.3)"
     feed_rejected["r1_max_ohm"] = fed.unserved_r1_max
@@ -528,7 +573,8 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = 
         configs=k, rth_sa_max=rth_k, rth_cs_classes=classes, feed_options=feed_opts,
         re_options=res, rails=rails, pairs=pairs, funnel=funnel, rejected=rejected,
         considered=c.considered, explain=explain,
-        cost_bound=None if feed_bound is None else feed_bound.threshold,
+        cost_bound=feed_bound.threshold if isinstance(feed_bound, FeedBound) else None,
+        change_bound=feed_bound.threshold if isinstance(feed_bound, ChangeBound) else None,
         cut_cores=fed.cut,
     )
 
@@ -602,7 +648,7 @@ def _relaxed_feeds(core: pd.DataFrame, sink: _Sink) -> _Feeds:
 
 
 def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min: float, sink: _Sink,
-           bound: FeedBound | None = None) -> _Feeds:
+           bound: FeedBound | ChangeBound | None = None) -> _Feeds:
     """Expand core configurations by bias feed; attach the feed-resistor options.
 
     ``rows`` has one row per (core config, feed variant) that some resistor
@@ -685,7 +731,7 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
 
 
 def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame, sink: _Sink,
-                  bound: FeedBound | None = None, skipped: np.ndarray | None = None, cut: np.ndarray | None = None):
+                  bound: FeedBound | ChangeBound | None = None, skipped: np.ndarray | None = None, cut: np.ndarray | None = None):
     """Current-source feeds (model s.3 (a')): small complementary pair x reference x mounting.
 
     Yields ``(core rows served, variant frame, resistor options, sink limits)``.
@@ -708,7 +754,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     loading and the bias-diode rating at the upper one.
 
     With a ``bound``, a (core configuration, pair, reference) whose
-    :class:`FeedBound` bound is above the threshold is not built, and marked
+    :class:`FeedBound` or :class:`ChangeBound` bound is above the threshold is not built, and marked
     in ``skipped``, and in ``cut`` too when its bound is finite (an infinite
     one: the relaxed table has no design with that core, or a part has no
     usable offer, so no threshold builds it).
@@ -735,9 +781,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
         for d_i, per, vref, if_max in refs:
             room = vref - vbe_req >= CCS_MIN_RE_DROP_V
             if bound is not None:
-                parts = (bound.units(targets.channels) * (bound.transistor_price[s.npn_i] + bound.transistor_price[s.pnp_i])
-                         + bound.units(2 * targets.channels * per) * bound.diode_price[d_i])
-                lb = bound.core_lb + parts
+                lb = bound.row_bound(s, d_i, per, targets.channels)
                 left_out = room & (lb > bound.threshold)
                 skipped |= left_out
                 cut |= left_out & np.isfinite(lb)

@@ -55,6 +55,15 @@ class BoundedSearch:
 
 
 @dataclass
+class ChangeSearch:
+    """What a re-design past the size limit searched with (:func:`~partpick.optimize.revise.redesign`), kept so that later steps can search on."""
+
+    catalog: Catalog
+    previous: object  # the revise.Previous report it re-designs
+    exclude: tuple[str, ...]
+
+
+@dataclass
 class DesignResult:
     spec: Spec
     pool: Pool
@@ -65,8 +74,9 @@ class DesignResult:
     check: SelectionCheck | None
     status: str
     warnings: list[str] = field(default_factory=list)
-    #: A bounded run's search (:func:`run_bounded`), kept so that later steps can search on; None on a whole table.
-    search: BoundedSearch | None = None
+    #: A bounded table's search (:func:`run_bounded`, or a re-design's), kept so that later steps can search on;
+    #: None on a whole table.
+    search: BoundedSearch | ChangeSearch | None = None
 
     @property
     def feasible(self) -> bool:
@@ -219,8 +229,8 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
     """
     from partpick.optimize.milp import _tie_margin, objective_value
 
-    if result.search is None:
-        raise ValueError("design_without continues a bounded design only")
+    if not isinstance(result.search, BoundedSearch):
+        raise ValueError("design_without continues a design of run_bounded only")
     forbidden = result.search.forbidden + tuple(sources)
     bound = feed_bound(result.spec, result.pool, result.targets, result.search.cores, forbidden)
     if bound is None or not np.isfinite(bound.core_lb).any():
@@ -356,17 +366,27 @@ def proven_whole(result: DesignResult, sol: Solution) -> bool:
     Always on a whole table. On a bounded one (:func:`run_bounded`) when its
     cost plus the tie-break margin is at or below the table's cost bound:
     every design that costs no more holds only configurations of the table.
+    On a re-design's table (built by changed roles,
+    :func:`~partpick.optimize.revise.redesign`) when its changed roles are
+    at most the table's level: every design with no more changes is in it.
     An infeasible ``sol`` on a bounded table proves nothing.
     """
     from partpick.optimize.milp import _tie_margin, objective_value
 
-    bound = result.stage.cost_bound
-    if bound is None:
+    bound, level = result.stage.cost_bound, result.stage.change_bound
+    if bound is None and level is None:
         return True
     if sol.status == "infeasible":
         return False
     problem = result.assembly.problem
+    if level is not None:
+        return changed_roles(problem, sol) <= level
     return objective_value(problem, sol) + _tie_margin(problem, sol) <= bound
+
+
+def changed_roles(problem, sol: Solution) -> int:
+    """A re-design's changed roles (the problem's ``change_cost`` summed over the solution's choice)."""
+    return int(round(sum(float(problem.change_cost[g][sol.choice[g]]) for g in problem.change_cost)))
 
 
 def _past_limit() -> str:

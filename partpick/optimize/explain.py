@@ -332,8 +332,10 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     Returns ``{"feed", "feasible", "total", "extra_cost", "reason"}`` for the
     feed that was not chosen; None when the spec fixes the feed, or when
     ``time_limit`` (the design's own) ran out before the other feed's search
-    found any design (neither "feasible" nor "infeasible" would be true). A
-    design found but not proven cheapest says so in ``reason``.
+    found any design, or when a re-design past the size limit cannot be
+    made again with the other feed within the limit (:func:`_feed_redesigned`):
+    neither "feasible" nor "infeasible" would be true then. A design found
+    but not proven cheapest says so in ``reason``.
     """
     if result.spec.stage.bias_feed != "auto" or not result.feasible:
         return None
@@ -345,6 +347,8 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     other = "resistor" if chosen == "current_source" else "current_source"
     k = result.assembly.tables["stage"]
     mask = (k["feed"].to_numpy() == other).astype(float)
+    # A re-design's table built by changed roles holds the current-source rows with few changes only.
+    by_changes = result.stage.change_bound is not None and other == "current_source" and result.stage.cut_cores > 0
     if result.stage.cost_bound is not None and other == "current_source":
         # The design's table holds only the current-source configurations under
         # its cost bound (design.run_bounded): design that feed on its own, bounded
@@ -358,19 +362,49 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         if alone.feasible:
             return _feed_found(result, other, alone.solution, time_limit)
         reason = "no design with it meets every constraint"
-    elif mask.any():
-        with rules_kept(result.assembly.problem) as problem:
-            problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
-            try:
-                alt = solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
-            except SolverTimeout:
-                return None
+    elif mask.any() or by_changes:
+        alt = None
+        if mask.any():
+            with rules_kept(result.assembly.problem) as problem:
+                problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
+                try:
+                    alt = solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
+                except SolverTimeout:
+                    return None
+        if by_changes and not (alt is not None and alt.status != "infeasible" and proven_whole(result, alt)):
+            return _feed_redesigned(result, other, alt, solver, time_limit)
         if alt.status != "infeasible":
             return _feed_found(result, other, alt, time_limit)
         reason = "no design with it meets the couplings with the other roles"
     else:
         reason = feed_failure(result.stage, k.iloc[result.solution.choice["stage"]], other)
     return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
+
+
+def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_limit: float | None) -> dict | None:
+    """:func:`compare_feeds` on a re-design past the limit whose table may hold the ``other`` feed's closest design only in part.
+
+    The re-design is made again with the spec fixing that feed
+    (:func:`~partpick.optimize.revise._redesign_bounded`), from the level of
+    ``alt``'s changes (``alt``: the table's own best with that feed, or
+    None), or one above the table's; None when that stops at a limit.
+    """
+    from partpick.errors import SolverTimeout
+    from partpick.optimize.design import changed_roles
+    from partpick.optimize.revise import _redesign_bounded
+
+    search = result.search
+    found = alt is not None and alt.status != "infeasible"
+    level = changed_roles(result.assembly.problem, alt) if found else result.stage.change_bound + 1
+    try:
+        again = _redesign_bounded(_with(result.spec, "stage", bias_feed=other), search.catalog, search.previous, search.exclude,
+                                  solver, time_limit, SizeLimitError(f"too many stage configurations to re-design with the {other} feed"),
+                                  level).result
+    except (SolverTimeout, SizeLimitError):
+        return None
+    if again.feasible:
+        return _feed_found(result, other, again.solution, time_limit)
+    return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": "no design with it meets every constraint"}
 
 
 def _feed_found(result: DesignResult, other: str, alt, time_limit: float | None) -> dict:

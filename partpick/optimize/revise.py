@@ -10,14 +10,16 @@ have the previous part's package, and its pinout where both are catalogued.
 from __future__ import annotations
 
 import json
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 
 from partpick.catalog import Catalog
-from partpick.errors import InputError, Problem
-from partpick.optimize.design import DesignResult, finish, option_sources, prepare, proven_whole, usable_sources
+from partpick.errors import InputError, Problem, SizeLimitError
+from partpick.optimize.design import (
+    BoundedSearch, ChangeSearch, DesignResult, changed_roles, finish, option_sources, prepare, proven_whole, usable_sources,
+)
 from partpick.optimize.milp import Coupling, rules_kept
 from partpick.report.build import SCHEMA, value_text
 from partpick.spec import Spec
@@ -131,27 +133,24 @@ def redesign(
     solver: str = "cbc",
     time_limit: float | None = None,
 ) -> Redesign:
-    """The design closest to ``previous``: fewest changed roles, then cost (each search within ``time_limit``)."""
-    base = prepare(spec, catalog, exclude=exclude)
+    """The design closest to ``previous``: fewest changed roles, then cost (each search within ``time_limit``).
+
+    When the current-source feeds give more stage configurations than one
+    run holds, the default objective (fewest changes first) goes on through
+    :func:`_redesign_bounded`; ``keep_footprints`` and ``change_weight``
+    stop with the :class:`~partpick.errors.SizeLimitError`.
+    """
+    try:
+        base = prepare(spec, catalog, exclude=exclude)
+    except SizeLimitError as exc:
+        if keep_footprints or change_weight is not None:
+            raise
+        return _redesign_bounded(spec, catalog, previous, exclude, solver, time_limit, exc)
     if base.status != "prepared":
         return Redesign(base, [])
     problem = base.assembly.problem
     fps = _footprints(catalog)
-    group_roles: dict[str, set[str]] = {}
-    option_roles: dict[str, list[dict]] = {}
-    named: dict = {}
-    for g, grp in problem.groups.items():
-        option_roles[g] = [_option_roles(base, g, o, named) for o in range(len(grp))]
-        group_roles[g] = {r for roles in option_roles[g] for r in roles}
-    role_group = {r: g for g, rs in group_roles.items() for r in rs}
-    prev_by_group: dict[str, set[str]] = {}
-    for r in previous.parts:
-        if r in role_group:
-            prev_by_group.setdefault(role_group[r], set()).add(r)
-    for g, opts in option_roles.items():
-        p_roles = prev_by_group.get(g, set())
-        cc = np.array([len(set(o) | p_roles) - sum(1 for r, v in o.items() if previous.parts.get(r) == v) for o in opts], float)
-        problem.change_cost[g] = cc
+    option_roles, role_group, prev_by_group = _set_change_costs(base, previous)
     problem.change_weight = change_weight
 
     no_drop: dict[str, str] = {}
@@ -179,6 +178,131 @@ def redesign(
         result = finish(base, solver=solver, time_limit=time_limit)
     changes = _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog) if result.feasible else []
     return Redesign(result, changes, no_drop)
+
+
+def _set_change_costs(result: DesignResult, previous: Previous):
+    """Each option's changed roles against ``previous`` (``problem.change_cost``); returns (option roles, role -> group, group -> previous roles)."""
+    problem = result.assembly.problem
+    group_roles: dict[str, set[str]] = {}
+    option_roles: dict[str, list[dict]] = {}
+    named: dict = {}
+    for g, grp in problem.groups.items():
+        option_roles[g] = [_option_roles(result, g, o, named) for o in range(len(grp))]
+        group_roles[g] = {r for roles in option_roles[g] for r in roles}
+    role_group = {r: g for g, rs in group_roles.items() for r in rs}
+    prev_by_group: dict[str, set[str]] = {}
+    for r in previous.parts:
+        if r in role_group:
+            prev_by_group.setdefault(role_group[r], set()).add(r)
+    # A role several groups fill (the decoupling capacitors: one ceramic, one
+    # electrolytic) is kept by a group whose parts are among the previous ones.
+    shared = {r for r in role_group if sum(r in rs for rs in group_roles.values()) > 1}
+
+    def kept(r: str, v: list) -> bool:
+        was = previous.parts.get(r)
+        if r in shared:
+            return was is not None and set(v) <= set(was)
+        return was == v
+
+    for g, opts in option_roles.items():
+        p_roles = prev_by_group.get(g, set())
+        cc = np.array([len(set(o) | p_roles) - sum(1 for r, v in o.items() if kept(r, v)) for o in opts], float)
+        problem.change_cost[g] = cc
+    return option_roles, role_group, prev_by_group
+
+
+def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude: tuple[str, ...], solver: str,
+                      time_limit: float | None, too_large: SizeLimitError, level: float = 0.0) -> Redesign:
+    """:func:`redesign` past the stage size limit: tables of the rows with few changes of their own, level by level.
+
+    A :class:`~partpick.evaluate.stage.ChangeBound` at level L builds every
+    resistor-fed row and the current-source rows whose own changed roles
+    (output pair, source pair, reference) are at most L: every design with
+    at most L changes holds only such rows. The table's best design (fewest
+    changes, then cost) with n <= L changes is then the best of the whole
+    catalogue; with n > L the level rises to n, where one more table proves
+    it, and a table without a design raises it by one. A level whose table
+    is past the limit ends the search: the design found is returned "not
+    proven optimal", or, none found, ``too_large`` is raised. A table with
+    every feed built and no design: no design at all. ``level``: the first
+    level (a caller that knows no design has fewer changes).
+    """
+    from partpick.errors import SolverTimeout
+    from partpick.evaluate import stage as stage_rules
+    from partpick.evaluate.context import Targets, make_pool
+    from partpick.evaluate.stage import evaluate_stage, stage_cores
+    from partpick.optimize.design import finish
+    from partpick.optimize.milp import _clock
+    from partpick.optimize.problem import assemble
+
+    pool = make_pool(spec, catalog, tuple(exclude))
+    targets = Targets.from_spec(spec)
+    cores = stage_cores(spec, pool, targets)
+    bound = _change_bound(previous, pool, cores)
+    deadline = None if time_limit is None else _clock() + time_limit
+    opening = (f"the current-source bias feed gives more stage configurations than one run holds "
+               f"({stage_rules.STAGE_ROWS_MAX:,})")
+    best: DesignResult | None = None
+    search = ChangeSearch(catalog, previous, tuple(exclude))
+    while True:
+        try:
+            stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=level), cores=cores)
+        except SizeLimitError:
+            if best is None:
+                raise too_large from None
+            best.status = best.solution.status = "not proven optimal"
+            best.warnings.append(f"{opening}; this re-design comes from {_level_rows(best)}, and proving it would need "
+                                 f"more than {stage_rules.STAGE_ROWS_MAX:,} stage configurations")
+            return Redesign(best, _changes(best, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+        asm = assemble(spec, pool, targets, stage)
+        status = "infeasible" if asm is None or asm.problem is None else "prepared"
+        result = DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings), search)
+        if status == "prepared":
+            _opts, role_group, _prev = _set_change_costs(result, previous)
+            # Previous roles no option of this table has are gone from each of its
+            # designs: counted on the stage group (one option per design), so that a
+            # design's changes are the same in every table.
+            problem = asm.problem
+            problem.change_cost["stage"] = problem.change_cost["stage"] + sum(1 for r in previous.parts if r not in role_group)
+            left = None if deadline is None else deadline - _clock()
+            if left is not None and left <= 0:
+                raise SolverTimeout(time_limit)
+            result = finish(result, solver=solver, time_limit=left)
+            if result.status == "not proven optimal":
+                return Redesign(result, _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+            if result.status == "ok":
+                changed = changed_roles(result.assembly.problem, result.solution)
+                if changed <= level:
+                    result.warnings.append(f"{opening}: partpick built {_level_rows(result)}, which hold every design "
+                                           f"with no more changed roles, so this re-design is still the closest of the whole catalogue")
+                    return Redesign(result, _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+                best, level = result, float(changed)
+                continue
+        if stage.cut_cores == 0:
+            return Redesign(result, [])  # every feed was built: no design at all
+        level += 1.0
+
+
+def _change_bound(previous: Previous, pool, cores):
+    """The :class:`~partpick.evaluate.stage.ChangeBound` of ``previous`` over ``cores`` (threshold 0)."""
+    from partpick.evaluate.stage import ChangeBound
+
+    def parts(role: str) -> frozenset[str] | None:
+        return frozenset(m for m, _v in previous.parts[role]) if role in previous.parts else None
+
+    pair_i = cores.core["pair_i"].to_numpy(int)
+    own = np.zeros(len(pair_i))
+    for role, column in (("output_npn", "mpn_n"), ("output_pnp", "mpn_p")):
+        mpn = cores.pairs[column].to_numpy(object)[pair_i]
+        was = parts(role)
+        own += np.fromiter(((was is None or frozenset((m,)) != was) for m in mpn), float, len(mpn))
+    return ChangeBound(own, 0.0, pool.transistors["mpn"].to_numpy(object), pool.diodes["mpn"].to_numpy(object),
+                       parts("bias_source_transistor"), parts("bias_source_reference"))
+
+
+def _level_rows(result: DesignResult) -> str:
+    """What a re-design's table holds, for the warnings."""
+    return f"the {len(result.stage.configs):,} stage configurations with at most {result.stage.change_bound:g} changed roles of their own"
 
 
 def _footprint_violations(option_roles, previous: Previous, fps, prev_by_group) -> dict[str, tuple[str, np.ndarray]]:
@@ -316,7 +440,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
             used = asm  # the assembly alt solves
             whole = alt is None or proven_whole(result, alt)
             if not whole:
-                # Past the bounded table's cost bound: the bounded search goes on without the part.
+                # Past the bounded table's bound: its search goes on without the part.
                 again = _designed_without(result, src, solver, time_limit, alt)
                 if again is not None:
                     (used, alt), whole = again, True
@@ -324,8 +448,7 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
             if alt is None:
                 replacement = f"no design found within {time_limit:g} s"
             elif not whole and alt.status == "infeasible":
-                replacement = (f"no design among the stage configurations under the cost bound "
-                               f"({result.stage.cost_bound:.2f} {result.pool.currency}); not proven that none exists")
+                replacement = f"no design among {_table_held(result)}; not proven that none exists"
             elif alt.status != "infeasible":
                 total = alt.total
                 roles = [used.lines[l][0] for l, _q2, r in used.problem.groups[g].usage[alt.choice[g]] if r == role]
@@ -336,20 +459,39 @@ def stock_risk(result: DesignResult, solver: str = "cbc", time_limit: float | No
     return risks
 
 
+def _table_held(result: DesignResult) -> str:
+    """Which stage configurations a bounded table holds, for a risk row."""
+    if result.stage.change_bound is not None:
+        return f"the stage configurations with at most {result.stage.change_bound:g} changed roles of their own"
+    return f"the stage configurations under the cost bound ({result.stage.cost_bound:.2f} {result.pool.currency})"
+
+
 def _designed_without(result: DesignResult, src: str, solver: str, time_limit: float | None, start):
     """``result``'s spec designed anew without ``src``: (its assembly, its solution), the solution
     infeasible when no design exists; None when that run stops at a limit.
 
-    ``result`` is a bounded design: its search goes on without the part
-    (:func:`~partpick.optimize.design.design_without`), from ``start``, the
-    re-solve of its own table without the part.
+    ``result`` comes from a bounded table: its search goes on without the
+    part, from ``start``, the re-solve of its own table without the part.
+    A design of :func:`~partpick.optimize.design.run_bounded` goes on with
+    :func:`~partpick.optimize.design.design_without`; a re-design past the
+    limit is re-designed with the part excluded, from the level of the
+    start's changes (none: one above the table's).
     """
-    from partpick.errors import SizeLimitError, SolverTimeout
+    from partpick.errors import SolverTimeout
     from partpick.optimize.design import design_without
     from partpick.optimize.milp import _infeasible
 
+    search = result.search
     try:
-        again = design_without(result, (src,), solver=solver, time_limit=time_limit, start=start)
+        if isinstance(search, BoundedSearch):
+            again = design_without(result, (src,), solver=solver, time_limit=time_limit, start=start)
+        elif isinstance(search, ChangeSearch):
+            level = (changed_roles(result.assembly.problem, start) if start is not None and start.status != "infeasible"
+                     else result.stage.change_bound + 1)
+            again = _redesign_bounded(result.spec, search.catalog, search.previous, search.exclude + (src,), solver, time_limit,
+                                      SizeLimitError(f"too many stage configurations to re-design without {src}"), level).result
+        else:
+            return None
     except (SizeLimitError, SolverTimeout):
         return None
     return again.assembly, again.solution if again.solution is not None else _infeasible(solver)
