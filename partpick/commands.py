@@ -55,9 +55,10 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
 
         if args.objective:
             spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": args.objective})})
+        # --risk re-solves the design without each of its parts: on the whole table when it fits.
         revision = redesign(spec, catalog, previous, exclude=tuple(args.exclude), keep_footprints=args.keep_footprints,
                             change_weight=getattr(args, "change_weight", None), solver=args.solver,
-                            time_limit=limit)
+                            time_limit=limit, by_changes=not getattr(args, "risk", False))
         result = revision.result
     else:
         result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver,

@@ -332,8 +332,8 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     Returns ``{"feed", "feasible", "total", "extra_cost", "reason"}`` for the
     feed that was not chosen; None when the spec fixes the feed, or when
     ``time_limit`` (the design's own) ran out before the other feed's search
-    found any design, or when a re-design past the size limit cannot be
-    made again with the other feed within the limit (:func:`_feed_redesigned`):
+    found any design, or when a re-design cannot be made again with the
+    other feed within the size limit (:func:`_feed_redesigned`):
     neither "feasible" nor "infeasible" would be true then. A design found
     but not proven cheapest says so in ``reason``.
     """
@@ -382,7 +382,7 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
 
 
 def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_limit: float | None) -> dict | None:
-    """:func:`compare_feeds` on a re-design past the limit whose table may hold the ``other`` feed's closest design only in part.
+    """:func:`compare_feeds` on a re-design whose table (built by changed roles) may hold the ``other`` feed's closest design only in part.
 
     The re-design is made again with the spec fixing that feed
     (:func:`~partpick.optimize.revise._redesign_bounded`), from the level of
@@ -398,8 +398,7 @@ def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_li
     level = changed_roles(result.assembly.problem, alt) if found else result.stage.change_bound + 1
     try:
         again = _redesign_bounded(_with(result.spec, "stage", bias_feed=other), search.catalog, search.previous, search.exclude,
-                                  solver, time_limit, SizeLimitError(f"too many stage configurations to re-design with the {other} feed"),
-                                  level).result
+                                  solver, time_limit, level).result
     except (SolverTimeout, SizeLimitError):
         return None
     if again.feasible:

@@ -2,8 +2,10 @@
 
 ``redesign`` re-solves with the current catalogue while minimising the number
 of roles whose parts change against a previous report (then cost; a weight
-may trade changes against cost). With ``keep_footprints`` a replacement must
-have the previous part's package, and its pinout where both are catalogued.
+may trade changes against cost). Fewest changes first builds the stage
+table level by level of changed roles (``_redesign_bounded``). With
+``keep_footprints`` a replacement must have the previous part's package, and
+its pinout where both are catalogued.
 ``stock_risk`` finds single-source lines and the best design without each.
 """
 
@@ -132,20 +134,29 @@ def redesign(
     change_weight: float | None = None,
     solver: str = "cbc",
     time_limit: float | None = None,
+    by_changes: bool = True,
 ) -> Redesign:
     """The design closest to ``previous``: fewest changed roles, then cost (each search within ``time_limit``).
 
-    When the current-source feeds give more stage configurations than one
-    run holds, the default objective (fewest changes first) goes on through
-    :func:`_redesign_bounded`; ``keep_footprints`` and ``change_weight``
-    stop with the :class:`~partpick.errors.SizeLimitError`.
+    The default objective (fewest changes first) builds the stage table
+    level by level of changed roles (:func:`_redesign_bounded`): most
+    re-designs change few roles, and their tables hold a small part of the
+    stage configurations. ``by_changes=False`` builds the whole table
+    (what :func:`stock_risk` then re-solves without each part, each such
+    design needing changes past the levels' tables), and goes on by levels
+    only when the whole table is past the size limit. ``keep_footprints``
+    and ``change_weight`` build the whole table, and stop with the
+    :class:`~partpick.errors.SizeLimitError` when it is too large.
     """
+    by_levels = not keep_footprints and change_weight is None
+    if by_changes and by_levels:
+        return _redesign_bounded(spec, catalog, previous, exclude, solver, time_limit)
     try:
         base = prepare(spec, catalog, exclude=exclude)
-    except SizeLimitError as exc:
-        if keep_footprints or change_weight is not None:
+    except SizeLimitError:
+        if not by_levels:
             raise
-        return _redesign_bounded(spec, catalog, previous, exclude, solver, time_limit, exc)
+        return _redesign_bounded(spec, catalog, previous, exclude, solver, time_limit)
     if base.status != "prepared":
         return Redesign(base, [])
     problem = base.assembly.problem
@@ -212,8 +223,8 @@ def _set_change_costs(result: DesignResult, previous: Previous):
 
 
 def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude: tuple[str, ...], solver: str,
-                      time_limit: float | None, too_large: SizeLimitError, level: float = 0.0) -> Redesign:
-    """:func:`redesign` past the stage size limit: tables of the rows with few changes of their own, level by level.
+                      time_limit: float | None, level: float = 0.0) -> Redesign:
+    """:func:`redesign` on tables of the stage rows with few changes of their own, level by level.
 
     A :class:`~partpick.evaluate.stage.ChangeBound` at level L builds every
     resistor-fed row and the current-source rows whose own changed roles
@@ -222,10 +233,14 @@ def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude:
     changes, then cost) with n <= L changes is then the best of the whole
     catalogue; with n > L the level rises to n, where one more table proves
     it, and a table without a design raises it by one. A level whose table
-    is past the limit ends the search: the design found is returned "not
-    proven optimal", or, none found, ``too_large`` is raised. A table with
-    every feed built and no design: no design at all. ``level``: the first
-    level (a caller that knows no design has fewer changes).
+    is past the size limit ends the search: the design found is returned
+    "not proven optimal", or, none found, the limit's
+    :class:`~partpick.errors.SizeLimitError` is raised. A table with every
+    feed built and no design: no design at all. ``level``: the first level
+    (a caller that knows no design has fewer changes).
+
+    Exact for the changes and then the cost; between designs equal in both,
+    the tie-break may pick another than the whole table would.
     """
     from partpick.errors import SolverTimeout
     from partpick.evaluate import stage as stage_rules
@@ -249,7 +264,7 @@ def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude:
             stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=level), cores=cores)
         except SizeLimitError:
             if best is None:
-                raise too_large from None
+                raise
             best.status = best.solution.status = "not proven optimal"
             best.warnings.append(f"{opening}; this re-design comes from {_level_rows(best)}, and proving it would need "
                                  f"more than {stage_rules.STAGE_ROWS_MAX:,} stage configurations")
@@ -273,8 +288,6 @@ def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude:
             if result.status == "ok":
                 changed = changed_roles(result.assembly.problem, result.solution)
                 if changed <= level:
-                    result.warnings.append(f"{opening}: partpick built {_level_rows(result)}, which hold every design "
-                                           f"with no more changed roles, so this re-design is still the closest of the whole catalogue")
                     return Redesign(result, _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
                 best, level = result, float(changed)
                 continue
@@ -489,7 +502,7 @@ def _designed_without(result: DesignResult, src: str, solver: str, time_limit: f
             level = (changed_roles(result.assembly.problem, start) if start is not None and start.status != "infeasible"
                      else result.stage.change_bound + 1)
             again = _redesign_bounded(result.spec, search.catalog, search.previous, search.exclude + (src,), solver, time_limit,
-                                      SizeLimitError(f"too many stage configurations to re-design without {src}"), level).result
+                                      level).result
         else:
             return None
     except (SizeLimitError, SolverTimeout):
