@@ -233,8 +233,11 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
         raise ValueError("design_without continues a design of run_bounded only")
     forbidden = result.search.forbidden + tuple(sources)
     bound = feed_bound(result.spec, result.pool, result.targets, result.search.cores, forbidden)
-    if bound is None or not np.isfinite(bound.core_lb).any():
-        raise SizeLimitError("no design without " + ", ".join(sources) + ", and too many stage configurations to say why")
+    if bound is None:
+        raise SizeLimitError(f"more than {RELAXED_CELLS_MAX:,} stage configuration and heatsink pairs")
+    if not np.isfinite(bound.core_lb).any():
+        # No core configuration has a design without the parts even fed by nothing: none at all.
+        return replace(result, assembly=None, solution=None, check=None, status="infeasible", warnings=[], search=None)
     search = replace(result.search, bound=bound, forbidden=forbidden)
     problem = result.assembly.problem
     if start is not None and start.status != "infeasible":

@@ -255,20 +255,23 @@ def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude:
     cores = stage_cores(spec, pool, targets)
     bound = _change_bound(previous, pool, cores)
     deadline = None if time_limit is None else _clock() + time_limit
-    opening = (f"the current-source bias feed gives more stage configurations than one run holds "
-               f"({stage_rules.STAGE_ROWS_MAX:,})")
     best: DesignResult | None = None
     search = ChangeSearch(catalog, previous, tuple(exclude))
+
+    def done(result: DesignResult, unproven: str | None = None) -> Redesign:
+        if unproven is not None:
+            result.status = result.solution.status = "not proven optimal"
+            result.warnings.append(f"this re-design comes from {_level_rows(result)}, and {unproven}")
+        return Redesign(result, _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+
     while True:
         try:
             stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=level), cores=cores)
         except SizeLimitError:
             if best is None:
                 raise
-            best.status = best.solution.status = "not proven optimal"
-            best.warnings.append(f"{opening}; this re-design comes from {_level_rows(best)}, and proving it would need "
-                                 f"more than {stage_rules.STAGE_ROWS_MAX:,} stage configurations")
-            return Redesign(best, _changes(best, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+            return done(best, f"proving it would need more than {stage_rules.STAGE_ROWS_MAX:,} stage configurations "
+                              f"(the current-source bias feed multiplies them)")
         asm = assemble(spec, pool, targets, stage)
         status = "infeasible" if asm is None or asm.problem is None else "prepared"
         result = DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings), search)
@@ -281,14 +284,21 @@ def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude:
             problem.change_cost["stage"] = problem.change_cost["stage"] + sum(1 for r in previous.parts if r not in role_group)
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
-                raise SolverTimeout(time_limit)
-            result = finish(result, solver=solver, time_limit=left)
+                if best is None:
+                    raise SolverTimeout(time_limit)
+                return done(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
+            try:
+                result = finish(result, solver=solver, time_limit=left)
+            except SolverTimeout:
+                if best is None:
+                    raise
+                return done(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
             if result.status == "not proven optimal":
-                return Redesign(result, _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+                return done(result)
             if result.status == "ok":
                 changed = changed_roles(result.assembly.problem, result.solution)
                 if changed <= level:
-                    return Redesign(result, _changes(result, previous, tuple(exclude) + tuple(spec.order.exclude), catalog))
+                    return done(result)
                 best, level = result, float(changed)
                 continue
         if stage.cut_cores == 0:
@@ -303,7 +313,7 @@ def _change_bound(previous: Previous, pool, cores):
     def parts(role: str) -> frozenset[str] | None:
         return frozenset(m for m, _v in previous.parts[role]) if role in previous.parts else None
 
-    pair_i = cores.core["pair_i"].to_numpy(int)
+    pair_i = cores.core["pair_i"].to_numpy(int) if cores.core is not None else np.zeros(0, int)
     own = np.zeros(len(pair_i))
     for role, column in (("output_npn", "mpn_n"), ("output_pnp", "mpn_p")):
         mpn = cores.pairs[column].to_numpy(object)[pair_i]

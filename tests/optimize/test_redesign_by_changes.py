@@ -127,6 +127,16 @@ def test_nothing_excluded_keeps_every_part_with_no_change_counted(catalog, tmp_p
         assert (rd.result.stage.change_bound == 0) == by_changes
 
 
+def test_no_output_pair_left_is_infeasible_both_ways(catalog, tmp_path) -> None:
+    """Every transistor excluded: no core configuration at all (the stage table is empty)."""
+    spec = CASES["bench 20 W auto"]()
+    _first, previous = _previous(spec, catalog, tmp_path)
+    every = tuple(catalog.transistors["mpn"])
+    for by_changes in (True, False):
+        rd = redesign(spec, catalog, previous, exclude=every, by_changes=by_changes)
+        assert rd.result.status == "infeasible" and not rd.result.feasible and rd.changes == []
+
+
 def test_footprints_and_change_weight_keep_the_size_limit_error(catalog, monkeypatch, tmp_path) -> None:
     spec = CASES["bench 20 W auto"]()
     first, previous = _previous(spec, catalog, tmp_path)
