@@ -56,7 +56,7 @@ class BoundedSearch:
 
 @dataclass
 class ChangeSearch:
-    """What a re-design past the size limit searched with (:func:`~partpick.optimize.revise.redesign`), kept so that later steps can search on."""
+    """What a re-design by changed roles searched with (:func:`~partpick.optimize.revise.redesign_by_changes`), kept so that later steps can search on."""
 
     catalog: Catalog
     previous: object  # the revise.Previous report it re-designs
@@ -213,11 +213,11 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
     """A bounded design's spec designed again without the parts ``sources`` (mpns): its search, continued.
 
     The rounds of :func:`run_bounded` run again on the same core
-    configurations and bounds, with every option that uses one of the parts
-    forbidden (the same as excluding them: the evaluation's filters only
-    remove what no design could use). Leaving parts out only removes
-    designs, so the bounds still hold; the relaxed table is not built again,
-    nor the whole table tried.
+    configurations, with every option that uses one of the parts forbidden
+    (the same as excluding them: the evaluation's filters only remove what
+    no design could use). The relaxed table's bounds are computed again with
+    the parts' options left out (they only rise, and are as tight as a run
+    with the parts excluded); the whole table is not tried.
 
     ``start``: a solve of ``result``'s problem without the parts (what
     :func:`~partpick.optimize.revise.stock_risk` has found first). When it

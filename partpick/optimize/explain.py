@@ -385,19 +385,19 @@ def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_li
     """:func:`compare_feeds` on a re-design whose table (built by changed roles) may hold the ``other`` feed's closest design only in part.
 
     The re-design is made again with the spec fixing that feed
-    (:func:`~partpick.optimize.revise._redesign_bounded`), from the level of
+    (:func:`~partpick.optimize.revise.redesign_by_changes`), from the level of
     ``alt``'s changes (``alt``: the table's own best with that feed, or
     None), or one above the table's; None when that stops at a limit.
     """
     from partpick.errors import SolverTimeout
     from partpick.optimize.design import changed_roles
-    from partpick.optimize.revise import _redesign_bounded
+    from partpick.optimize.revise import redesign_by_changes
 
     search = result.search
     found = alt is not None and alt.status != "infeasible"
     level = changed_roles(result.assembly.problem, alt) if found else result.stage.change_bound + 1
     try:
-        again = _redesign_bounded(_with(result.spec, "stage", bias_feed=other), search.catalog, search.previous, search.exclude,
+        again = redesign_by_changes(_with(result.spec, "stage", bias_feed=other), search.catalog, search.previous, search.exclude,
                                   solver, time_limit, level).result
     except (SolverTimeout, SizeLimitError):
         return None

@@ -3,7 +3,7 @@
 ``redesign`` re-solves with the current catalogue while minimising the number
 of roles whose parts change against a previous report (then cost; a weight
 may trade changes against cost). Fewest changes first builds the stage
-table level by level of changed roles (``_redesign_bounded``). With
+table level by level of changed roles (``redesign_by_changes``). With
 ``keep_footprints`` a replacement must have the previous part's package, and
 its pinout where both are catalogued.
 ``stock_risk`` finds single-source lines and the best design without each.
@@ -139,7 +139,7 @@ def redesign(
     """The design closest to ``previous``: fewest changed roles, then cost (each search within ``time_limit``).
 
     The default objective (fewest changes first) builds the stage table
-    level by level of changed roles (:func:`_redesign_bounded`): most
+    level by level of changed roles (:func:`redesign_by_changes`): most
     re-designs change few roles, and their tables hold a small part of the
     stage configurations. ``by_changes=False`` builds the whole table
     (what :func:`stock_risk` then re-solves without each part, each such
@@ -150,13 +150,13 @@ def redesign(
     """
     by_levels = not keep_footprints and change_weight is None
     if by_changes and by_levels:
-        return _redesign_bounded(spec, catalog, previous, exclude, solver, time_limit)
+        return redesign_by_changes(spec, catalog, previous, exclude, solver, time_limit)
     try:
         base = prepare(spec, catalog, exclude=exclude)
     except SizeLimitError:
         if not by_levels:
             raise
-        return _redesign_bounded(spec, catalog, previous, exclude, solver, time_limit)
+        return redesign_by_changes(spec, catalog, previous, exclude, solver, time_limit)
     if base.status != "prepared":
         return Redesign(base, [])
     problem = base.assembly.problem
@@ -222,7 +222,7 @@ def _set_change_costs(result: DesignResult, previous: Previous):
     return option_roles, role_group, prev_by_group
 
 
-def _redesign_bounded(spec: Spec, catalog: Catalog, previous: Previous, exclude: tuple[str, ...], solver: str,
+def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclude: tuple[str, ...], solver: str,
                       time_limit: float | None, level: float = 0.0) -> Redesign:
     """:func:`redesign` on tables of the stage rows with few changes of their own, level by level.
 
@@ -511,7 +511,7 @@ def _designed_without(result: DesignResult, src: str, solver: str, time_limit: f
         elif isinstance(search, ChangeSearch):
             level = (changed_roles(result.assembly.problem, start) if start is not None and start.status != "infeasible"
                      else result.stage.change_bound + 1)
-            again = _redesign_bounded(result.spec, search.catalog, search.previous, search.exclude + (src,), solver, time_limit,
+            again = redesign_by_changes(result.spec, search.catalog, search.previous, search.exclude + (src,), solver, time_limit,
                                       level).result
         else:
             return None
