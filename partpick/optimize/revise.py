@@ -231,8 +231,10 @@ def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclud
     (output pair, source pair, reference) are at most L: every design with
     at most L changes holds only such rows. The table's best design (fewest
     changes, then cost) with n <= L changes is then the best of the whole
-    catalogue; with n > L the level rises to n, where one more table proves
-    it, and a table without a design raises it by one. A level whose table
+    catalogue; otherwise the level rises by one (a design with n > L
+    changes is kept: by level n at the latest a table holds it, and the
+    search ends there). The first level is the least number of output
+    roles any core configuration changes. A level whose table
     is past the size limit ends the search: the design found is returned
     "not proven optimal", or, none found, the limit's
     :class:`~partpick.errors.SizeLimitError` is raised. A table with every
@@ -254,6 +256,9 @@ def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclud
     targets = Targets.from_spec(spec)
     cores = stage_cores(spec, pool, targets)
     bound = _change_bound(previous, pool, cores)
+    if len(bound.core_lb):
+        # Every row of a core configuration changes at least its output roles: no design changes fewer.
+        level = max(level, float(bound.core_lb.min()))
     deadline = None if time_limit is None else _clock() + time_limit
     best: DesignResult | None = None
     search = ChangeSearch(catalog, previous, tuple(exclude))
@@ -299,7 +304,7 @@ def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclud
                 changed = changed_roles(result.assembly.problem, result.solution)
                 if changed <= level:
                     return done(result)
-                best, level = result, float(changed)
+                best, level = result, level + 1.0
                 continue
         if stage.cut_cores == 0:
             return Redesign(result, [])  # every feed was built: no design at all
