@@ -211,11 +211,29 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
             return WhyAnswer(mpn, roles[0], True, "it is in the optimal design", best.solution.total, best.solution.total)
     reason = _first_rejection(best, mpn, roles)
     role = _usable_role(best, mpn)
+    forced = None
+    if role is None and best.feasible and best.stage.cost_bound is not None:
+        # A bounded table leaves out stage configurations the part may be in: design with it forced.
+        stopped = False
+        for r in (r for r in ROLE_ORDER if r in roles and r in STAGE_ROLES):
+            try:
+                forced = _forced_bounded(best, r, mpn, solver, exclude)
+            except (SizeLimitError, SolverTimeout):
+                stopped = True
+                continue
+            if forced is not None:
+                role = r
+                break
+        if role is None and stopped:
+            return WhyAnswer(mpn, roles[0], False, "no stage configuration built for this design uses it, and a design forced to use it "
+                             f"would need more than {_limit_text()} stage configurations to prove; not known",
+                             None, best.solution.total)
     if role is None:
         if reason is not None:
             return WhyAnswer(mpn, roles[0], False, reason)
         role = roles[0]
-    forced = _forced_total(best, role, mpn, solver)
+    if forced is None:
+        forced = _forced_total(best, role, mpn, solver, exclude)
     opt = best.solution.total if best.feasible else None
     if forced is None:
         msg = reason or "it passes its own checks, but no design with it meets the couplings with the other roles (driver, heatsink, diode) from the parts on offer"
@@ -223,24 +241,56 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
     return WhyAnswer(mpn, role, False, "feasible but not the cheapest", forced, opt)
 
 
-def _forced_total(best: DesignResult, role: str, mpn: str, solver: str) -> float | None:
+def _forced_total(best: DesignResult, role: str, mpn: str, solver: str, exclude: tuple[str, ...] = ()) -> float | None:
     """The total of the best design that uses ``mpn`` in ``role``; None when there is none.
 
     The design's own problem is solved again with the part forced (as
     :func:`~partpick.optimize.design.run` with ``forced`` would build it
     afresh, from the same spec and catalogue), taking the first search's cost
     bounds: forcing only adds a rule. Without a design there is none with the
-    part either.
+    part either. On a bounded table (:func:`~partpick.optimize.design.run_bounded`)
+    a forced design dearer than the table's cost bound, or none in the
+    table, proves nothing: the spec is then designed with the part forced
+    (bounded again; None when that stops at a limit too).
     """
     if not best.feasible:
         return None
     from partpick.optimize.milp import rules_kept, solve
 
+    sol = None
     with rules_kept(best.assembly.problem) as problem:
-        if not force_part(best.assembly, role, mpn):
-            return None
-        sol = solve(problem, solver=solver, bounds=best.solution.bounds)
-    return None if sol.status == "infeasible" else sol.total
+        if force_part(best.assembly, role, mpn):
+            sol = solve(problem, solver=solver, bounds=best.solution.bounds)
+    if sol is not None and proven_whole(best, sol):
+        return None if sol.status == "infeasible" else sol.total
+    if best.stage.cost_bound is None:
+        return None  # a whole table without the part in that role
+    try:
+        return _forced_bounded(best, role, mpn, solver, exclude)
+    except (SizeLimitError, SolverTimeout):
+        return None
+
+
+#: Roles whose parts are chosen with the output-stage configuration (a bounded table may leave them out).
+STAGE_ROLES = ("output_npn", "output_pnp", "bias_source_transistor", "regulator")
+
+
+def _forced_bounded(best: DesignResult, role: str, mpn: str, solver: str, exclude: tuple[str, ...]) -> float | None:
+    """The total of ``best``'s spec designed with ``mpn`` forced in ``role``, bounded (:func:`~partpick.optimize.design.run_bounded`); None: no design.
+
+    Raises the size-limit error or :class:`~partpick.errors.SolverTimeout` when that run stops at a limit.
+    """
+    from partpick.optimize.design import run_bounded
+
+    again = run_bounded(best.spec, best.pool.catalog, exclude=exclude, solver=solver, forced={role: mpn})
+    return again.solution.total if again.feasible else None
+
+
+def _limit_text() -> str:
+    """The stage size limit as printed (read when called: tests lower it)."""
+    from partpick.evaluate import stage
+
+    return f"{stage.STAGE_ROWS_MAX:,}"
 
 
 def _usable_role(result: DesignResult, mpn: str) -> str | None:

@@ -193,6 +193,43 @@ def test_designing_on_without_a_part_equals_excluding_it_from_the_whole_table(na
     assert beyond > 0 and proven > 0  # the bounded table alone did not prove some: the search went on and proved them
 
 
+@pytest.mark.parametrize("share", [0.75, 0.25])
+def test_why_past_the_limit_gives_the_whole_tables_answer_or_says_not_known(share, catalog, monkeypatch) -> None:
+    """``partpick why`` on a bounded table: the forced design proven there, or designed with the part forced (bounded).
+
+    A part in no configuration of the bounded table is tried in each stage
+    role with the part forced; where that passes the limit too, the answer
+    says "not known" instead of a rejection that is not the whole story.
+    """
+    from partpick.optimize.design import usable_sources
+    from partpick.optimize.explain import why
+
+    spec = _bench(22.0, bias_feed="current_source")
+    whole = run(spec, catalog)
+    chosen = {src for g, o in whole.solution.choice.items() for src, _q, _r in option_sources(whole, g, o)}
+    tr = catalog.transistors.set_index("mpn")
+    usable = sorted(m for m in usable_sources(whole) - chosen if m in tr.index)
+    assert len(usable) >= 6
+    picks = usable[:: max(1, len(usable) // 6)][:6]
+    expected = {m: why(spec, catalog, m) for m in picks}
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", int(share * len(whole.stage.configs)))
+    bounded = run(spec, catalog)
+    assert bounded.stage.cost_bound is not None
+    beyond = not_known = 0
+    for m in picks:
+        got, want = why(spec, catalog, m), expected[m]
+        assert want.forced_total is not None and not want.chosen
+        if "not known" in got.reason:
+            not_known += 1
+            assert got.forced_total is None
+            continue
+        assert (got.role, got.chosen) == (want.role, want.chosen), m
+        assert got.forced_total == pytest.approx(want.forced_total, abs=1e-6), m
+        beyond += want.forced_total > bounded.stage.cost_bound
+    assert beyond > 0  # forced designs past the bounded table's cost bound, proven all the same
+    assert not_known == 0 if share == 0.75 else not_known > 0
+
+
 def test_the_bounded_route_is_for_the_cost_objective_alone(catalog, monkeypatch) -> None:
     monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)
     with pytest.raises(SizeLimitError):
