@@ -225,15 +225,16 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
                 role = r
                 break
         if role is None and stopped:
-            return WhyAnswer(mpn, roles[0], False, "no stage configuration built for this design uses it, and a design forced to use it "
-                             f"would need more than {_limit_text()} stage configurations to prove; not known",
-                             None, best.solution.total)
+            return _not_known(best, mpn, roles[0])
     if role is None:
         if reason is not None:
             return WhyAnswer(mpn, roles[0], False, reason)
         role = roles[0]
     if forced is None:
-        forced = _forced_total(best, role, mpn, solver, exclude)
+        try:
+            forced = _forced_total(best, role, mpn, solver, exclude)
+        except (SizeLimitError, SolverTimeout):
+            return _not_known(best, mpn, role)
     opt = best.solution.total if best.feasible else None
     if forced is None:
         msg = reason or "it passes its own checks, but no design with it meets the couplings with the other roles (driver, heatsink, diode) from the parts on offer"
@@ -251,7 +252,7 @@ def _forced_total(best: DesignResult, role: str, mpn: str, solver: str, exclude:
     part either. On a bounded table (:func:`~partpick.optimize.design.run_bounded`)
     a forced design dearer than the table's cost bound, or none in the
     table, proves nothing: the spec is then designed with the part forced
-    (bounded again; None when that stops at a limit too).
+    (bounded again; its size-limit error or time-out is raised).
     """
     if not best.feasible:
         return None
@@ -265,10 +266,7 @@ def _forced_total(best: DesignResult, role: str, mpn: str, solver: str, exclude:
         return None if sol.status == "infeasible" else sol.total
     if best.stage.cost_bound is None:
         return None  # a whole table without the part in that role
-    try:
-        return _forced_bounded(best, role, mpn, solver, exclude)
-    except (SizeLimitError, SolverTimeout):
-        return None
+    return _forced_bounded(best, role, mpn, solver, exclude)
 
 
 #: Roles whose parts are chosen with the output-stage configuration (a bounded table may leave them out).
@@ -286,11 +284,13 @@ def _forced_bounded(best: DesignResult, role: str, mpn: str, solver: str, exclud
     return again.solution.total if again.feasible else None
 
 
-def _limit_text() -> str:
-    """The stage size limit as printed (read when called: tests lower it)."""
+def _not_known(best: DesignResult, mpn: str, role: str) -> WhyAnswer:
+    """:func:`why`'s answer when the design forced to use the part stops at the size limit (or the time limit)."""
     from partpick.evaluate import stage
 
-    return f"{stage.STAGE_ROWS_MAX:,}"
+    return WhyAnswer(mpn, role, False, "the design's table (under its cost bound) does not settle it, and a design forced to use it "
+                     f"would need more than {stage.STAGE_ROWS_MAX:,} stage configurations to prove; not known",
+                     None, best.solution.total)
 
 
 def _usable_role(result: DesignResult, mpn: str) -> str | None:
