@@ -26,6 +26,9 @@ ROLE_ORDER = (
     "decoupling_capacitor", "regulator", "regulator_set_resistor",
 )
 
+#: Roles whose parts come with the output-stage configuration (the ``stage`` group's options).
+STAGE_ROLES = ("output_npn", "output_pnp", "bias_source_transistor", "regulator")
+
 #: Most (core configuration, heatsink) pairs :func:`run_bounded`'s relaxed table may
 #: bound; above it the size-limit error stands. The large benchmark has
 #: 70,776 x 10,000: its bounds took 24.8 s and 7.7 GB. The shipped desk
@@ -199,13 +202,12 @@ def run_bounded(
     any design that costs no more.
     """
     spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": "cost"})})
-    pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, spec_label, too_large)
-    if bound is None:
+    pool, targets, search = _bounded_start(spec, catalog, exclude, spec_label, too_large)
+    if search is None:
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
         raise too_large or SizeLimitError("no design, and too many stage configurations to say why")
-    return _bounded_rounds(spec, pool, targets, BoundedSearch(catalog, cores, bound), solver=solver, forced=forced,
-                           time_limit=time_limit)
+    return _bounded_rounds(spec, pool, targets, search, solver=solver, forced=forced, time_limit=time_limit)
 
 
 def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: str = "cbc", time_limit: float | None = None,
@@ -231,14 +233,11 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
 
     if not isinstance(result.search, BoundedSearch):
         raise ValueError("design_without continues a design of run_bounded only")
-    forbidden = result.search.forbidden + tuple(sources)
-    bound = feed_bound(result.spec, result.pool, result.targets, result.search.cores, forbidden)
-    if bound is None:
-        raise SizeLimitError(f"more than {RELAXED_CELLS_MAX:,} stage configuration and heatsink pairs")
-    if not np.isfinite(bound.core_lb).any():
+    search = _bounded_search(result.spec, result.pool, result.targets, result.search.catalog, result.search.cores, None,
+                             result.search.forbidden + tuple(sources))
+    if search is None:
         # No core configuration has a design without the parts even fed by nothing: none at all.
         return replace(result, assembly=None, solution=None, check=None, status="infeasible", warnings=[], search=None)
-    search = replace(result.search, bound=bound, forbidden=forbidden)
     problem = result.assembly.problem
     if start is not None and start.status != "infeasible":
         threshold = objective_value(problem, start) + _tie_margin(problem, start)
@@ -314,17 +313,22 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
 
 
 def _bounded_start(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_label: str, too_large: SizeLimitError | None):
-    """(pool, targets, core configurations, their :func:`feed_bound`) of a bounded search; the bound None when no core has a finite one.
+    """(pool, targets, the :func:`_bounded_search` over its core configurations) of a bounded search."""
+    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
+    targets = Targets.from_spec(spec)
+    return pool, targets, _bounded_search(spec, pool, targets, catalog, stage_cores(spec, pool, targets), too_large)
+
+
+def _bounded_search(spec: Spec, pool: Pool, targets: Targets, catalog: Catalog, cores: StageCores,
+                    too_large: SizeLimitError | None, forbidden: tuple[str, ...] = ()) -> BoundedSearch | None:
+    """The :func:`feed_bound` of ``cores`` as a search; None when no core configuration has a finite bound (no design at all).
 
     Raises ``too_large`` (or a :class:`SizeLimitError` of its own) when the relaxed table is too large to bound.
     """
-    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
-    targets = Targets.from_spec(spec)
-    cores = stage_cores(spec, pool, targets)
-    bound = feed_bound(spec, pool, targets, cores)
+    bound = feed_bound(spec, pool, targets, cores, forbidden)
     if bound is None:
         raise too_large or SizeLimitError(f"more than {RELAXED_CELLS_MAX:,} stage configuration and heatsink pairs")
-    return pool, targets, cores, (bound if np.isfinite(bound.core_lb).any() else None)
+    return BoundedSearch(catalog, cores, bound, forbidden) if np.isfinite(bound.core_lb).any() else None
 
 
 def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = (), time_limit: float | None = None,
@@ -343,14 +347,14 @@ def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = 
     from partpick.errors import SolverTimeout
     from partpick.optimize.milp import _clock, first_threshold, has_design
 
-    pool, targets, cores, bound = _bounded_start(spec, catalog, exclude, "spec", too_large)
-    if bound is None:
+    pool, targets, search = _bounded_start(spec, catalog, exclude, "spec", too_large)
+    if search is None:
         return False
-    floor = float(np.min(bound.core_lb))
+    floor = search.floor
     threshold = first_threshold(floor)
     deadline = None if time_limit is None else _clock() + time_limit
     while True:
-        stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
+        stage = evaluate_stage(spec, pool, targets, feed_bound=replace(search.bound, threshold=threshold), cores=search.cores)
         asm = assemble(spec, pool, targets, stage)
         if asm is not None and asm.problem is not None:
             left = None if deadline is None else deadline - _clock()
@@ -468,7 +472,7 @@ def _using(asm: Assembly, sources: tuple[str, ...]) -> dict[str, np.ndarray]:
 def force_part(asm: Assembly, role: str, mpn: str) -> bool:
     """Fix a group's choice to the option that uses ``mpn`` in ``role``; False if none can."""
     p = asm.problem
-    group = "stage" if role in ("output_npn", "output_pnp", "bias_source_transistor", "regulator") else role
+    group = "stage" if role in STAGE_ROLES else role
     g = p.groups.get(group)
     if g is None:
         return False

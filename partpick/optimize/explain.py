@@ -13,7 +13,7 @@ import numpy as np
 
 from partpick.catalog import Catalog
 from partpick.errors import SizeLimitError, SolverTimeout
-from partpick.optimize.design import ROLE_ORDER, DesignResult, force_part, option_sources, prepare, proven_whole, run
+from partpick.optimize.design import ROLE_ORDER, STAGE_ROLES, DesignResult, force_part, option_sources, prepare, proven_whole, run
 from partpick.evaluate.stage import FIRST_FAIL_ORDER
 from partpick.spec import Spec
 
@@ -269,10 +269,6 @@ def _forced_total(best: DesignResult, role: str, mpn: str, solver: str, exclude:
     return _forced_bounded(best, role, mpn, solver, exclude)
 
 
-#: Roles whose parts are chosen with the output-stage configuration (a bounded table may leave them out).
-STAGE_ROLES = ("output_npn", "output_pnp", "bias_source_transistor", "regulator")
-
-
 def _forced_bounded(best: DesignResult, role: str, mpn: str, solver: str, exclude: tuple[str, ...]) -> float | None:
     """The total of ``best``'s spec designed with ``mpn`` forced in ``role``, bounded (:func:`~partpick.optimize.design.run_bounded`); None: no design.
 
@@ -428,7 +424,7 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         reason = "no design with it meets the couplings with the other roles"
     else:
         reason = feed_failure(result.stage, k.iloc[result.solution.choice["stage"]], other)
-    return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
+    return _feed_missing(other, reason)
 
 
 def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_limit: float | None) -> dict | None:
@@ -439,7 +435,6 @@ def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_li
     ``alt``'s changes (``alt``: the table's own best with that feed, or
     None), or one above the table's; None when that stops at a limit.
     """
-    from partpick.errors import SolverTimeout
     from partpick.optimize.design import changed_roles
     from partpick.optimize.revise import redesign_by_changes
 
@@ -448,12 +443,17 @@ def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_li
     level = changed_roles(result.assembly.problem, alt) if found else result.stage.change_bound + 1
     try:
         again = redesign_by_changes(_with(result.spec, "stage", bias_feed=other), search.catalog, search.previous, search.exclude,
-                                  solver, time_limit, level).result
+                                    solver, time_limit, level).result
     except (SolverTimeout, SizeLimitError):
         return None
     if again.feasible:
         return _feed_found(result, other, again.solution, time_limit)
-    return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": "no design with it meets every constraint"}
+    return _feed_missing(other, "no design with it meets every constraint")
+
+
+def _feed_missing(other: str, reason: str) -> dict:
+    """:func:`compare_feeds`' answer when the other feed has no design, and why."""
+    return {"feed": other, "feasible": False, "total": None, "extra_cost": None, "reason": reason}
 
 
 def _feed_found(result: DesignResult, other: str, alt, time_limit: float | None) -> dict:

@@ -223,7 +223,7 @@ def _set_change_costs(result: DesignResult, previous: Previous):
 
 
 def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclude: tuple[str, ...], solver: str,
-                      time_limit: float | None, level: float = 0.0) -> Redesign:
+                        time_limit: float | None, level: float = 0.0) -> Redesign:
     """:func:`redesign` on tables of the stage rows with few changes of their own, level by level.
 
     A :class:`~partpick.evaluate.stage.ChangeBound` at level L builds every
@@ -248,7 +248,6 @@ def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclud
     from partpick.evaluate import stage as stage_rules
     from partpick.evaluate.context import Targets, make_pool
     from partpick.evaluate.stage import evaluate_stage, stage_cores
-    from partpick.optimize.design import finish
     from partpick.optimize.milp import _clock
     from partpick.optimize.problem import assemble
 
@@ -288,11 +287,9 @@ def redesign_by_changes(spec: Spec, catalog: Catalog, previous: Previous, exclud
             problem = asm.problem
             problem.change_cost["stage"] = problem.change_cost["stage"] + sum(1 for r in previous.parts if r not in role_group)
             left = None if deadline is None else deadline - _clock()
-            if left is not None and left <= 0:
-                if best is None:
-                    raise SolverTimeout(time_limit)
-                return done(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
             try:
+                if left is not None and left <= 0:
+                    raise SolverTimeout(time_limit)
                 result = finish(result, solver=solver, time_limit=left)
             except SolverTimeout:
                 if best is None:
