@@ -157,6 +157,97 @@ class _Feeds:
 
 
 @dataclass
+class SinkCosts:
+    """The least a heatsink that suits a row's limits adds to the order, without pairing rows and heatsinks.
+
+    A heatsink suits a row as :func:`~partpick.optimize.problem.assemble`
+    pairs them: it mounts the output pair's package (and the current sources'
+    package when they sit on it), holds the row's devices, and its Rth_sa is
+    at or below the row's limit for the heatsink's mounting class. Per
+    (class, packages, devices) the suitable heatsinks sorted by Rth_sa, with
+    the running least cost, give every row's least by one binary search: no
+    table of rows x heatsinks (a large catalogue would have hundreds of
+    millions of pairs).
+    """
+
+    rth: np.ndarray  # Rth_sa per heatsink [K/W]
+    class_i: np.ndarray  # its mounting class (index into the stage's rth_cs classes)
+    holds: np.ndarray  # [heatsink, package code] it mounts that package
+    max_devices: np.ndarray
+    cost: np.ndarray  # a lower bound on what it adds to the order (inf: not buyable, or forbidden)
+    packages: dict[str, int]  # package -> code
+    core_package: np.ndarray  # per core configuration: its output pair's package code (-1: no heatsink mounts it)
+    n_dev: int  # output devices on one sink
+    channels: int  # channels on one sink (two sources each when they sit on it)
+
+    def least(self, limits: np.ndarray, package: np.ndarray, source_package: int, devices: int) -> np.ndarray:
+        """Per row: the least ``cost`` of a heatsink that suits it (inf: none).
+
+        ``limits`` [row, class]; ``package`` per row (a code, -1: unknown);
+        ``source_package``: the sources' package code on the sink, -1 for
+        none (-2: a package no heatsink mounts).
+        """
+        out = np.full(len(package), np.inf)
+        if source_package == -2 or not len(self.rth):
+            return out
+        fits = self.max_devices >= devices
+        if source_package >= 0:
+            fits = fits & self.holds[:, source_package]
+        for code in np.unique(package[package >= 0]).tolist():
+            rows = np.flatnonzero(package == code)
+            ok = fits & self.holds[:, code]
+            for c in np.unique(self.class_i[ok]).tolist():
+                m = np.flatnonzero(ok & (self.class_i == c))
+                m = m[np.argsort(self.rth[m], kind="stable")]
+                running = np.minimum.accumulate(self.cost[m])
+                at = np.searchsorted(self.rth[m], limits[rows, c], side="right")
+                out[rows] = np.minimum(out[rows], np.where(at > 0, running[np.maximum(at - 1, 0)], np.inf))
+        return out
+
+    def own(self, limits: np.ndarray) -> np.ndarray:
+        """Per core configuration: the least with its own ``limits`` [core, class] (no source on the sink)."""
+        return self.least(limits, self.core_package, -1, self.n_dev)
+
+    def with_sources(self, limits: np.ndarray, package: str) -> np.ndarray:
+        """Per core configuration: the least with current sources of ``package`` on the sink."""
+        return self.least(limits, self.core_package, self.packages.get(package, -2), self.n_dev + 2 * self.channels)
+
+
+@dataclass
+class FeeFloors:
+    """Order fees that any design holding a core configuration and given current-source parts pays at least.
+
+    With few suppliers (``ok`` given): the least fee of a supplier set that
+    can sell the core configuration's lines and some option of every other
+    group (``ok[key, set]``, the sets in ascending fee order) and also sells
+    each source transistor and the reference. With many, the one-seller
+    floor: the larger of the core's own floor and the cheapest fee of a
+    seller of each source part. Both only leave out requirements, so they
+    bound the fees from below, as :func:`~partpick.optimize.prune.fee_floors` does.
+    """
+
+    core: np.ndarray  # per core configuration: its floor with no source parts
+    transistor_fee: np.ndarray  # per pool.transistors row: the cheapest fee of a seller (inf: none)
+    diode_fee: np.ndarray  # per pool.diodes row
+    key: np.ndarray | None = None  # per core configuration: its row of ``ok`` (-1: none)
+    ok: np.ndarray | None = None  # [key, set]
+    fee: np.ndarray | None = None  # per set, ascending
+    sets: np.ndarray | None = None  # per set: its supplier bits
+    transistor_mask: np.ndarray | None = None  # per pool.transistors row: its sellers' bits
+    diode_mask: np.ndarray | None = None
+
+    def floor(self, npn_i: int, pnp_i: int, d_i: int) -> np.ndarray:
+        """Per core configuration: the fees of a design with these source transistors and reference."""
+        if self.ok is None:
+            return np.maximum(self.core, max(self.transistor_fee[npn_i], self.transistor_fee[pnp_i], self.diode_fee[d_i]))
+        sets = self.sets
+        req = ((sets & self.transistor_mask[npn_i]) != 0) & ((sets & self.transistor_mask[pnp_i]) != 0) & ((sets & self.diode_mask[d_i]) != 0)
+        hit = self.ok & req[None, :]
+        first = np.where(hit.any(axis=1), self.fee[hit.argmax(axis=1)], np.inf) if hit.size else np.full(len(hit), np.inf)
+        return np.where(self.key >= 0, first[np.maximum(self.key, 0)], np.inf) if len(first) else np.full(len(self.key), np.inf)
+
+
+@dataclass
 class FeedBound:
     """Which current-source feeds to build: those whose cost bound is at or below ``threshold``.
 
@@ -171,6 +262,19 @@ class FeedBound:
     feed's resistors count as nothing. Rows above the threshold are not built:
     no design holding one costs less than its bound. Resistor feeds are all
     built.
+
+    With ``sinks`` and ``fees`` (what :func:`~partpick.optimize.design.feed_bound`
+    gives), ``core_lb`` is split into the parts without the heatsink
+    (``core_parts``), the heatsink (``core_sink``, the least under the
+    core's own limits) and the fees, and a row's bound is tighter:
+    ``core_parts[c] + heatsink + fees(c, v) + parts(v)``. Its fees must
+    also buy the source parts (:class:`FeeFloors`). Its heatsink is the least
+    that suits the row: for sources in free air the core's own, for sources
+    on the sink the least under ``sink_limits``, the limits with the sources'
+    heat at the least current that can feed the core
+    (:func:`~partpick.model.swing.ccs_current_required_a`). A real row's
+    current is at least that, and more heat on the sink only lowers every
+    limit, so no suitable heatsink is left out.
     """
 
     core_lb: np.ndarray  # per core configuration (the relaxed table's core_i); inf: no design
@@ -178,6 +282,13 @@ class FeedBound:
     transistor_price: np.ndarray  # least unit price per pool.transistors row
     diode_price: np.ndarray  # least unit price per pool.diodes row
     factor: float  # boards x (1 + spares)
+    core_parts: np.ndarray | None = None  # per core configuration: parts without the heatsink, fees left out
+    core_sink: np.ndarray | None = None  # per core configuration: its least heatsink
+    sinks: SinkCosts | None = None
+    fees: FeeFloors | None = None
+    #: Per source pair (npn row, pnp row): its least heatsink per core configuration with the
+    #: sources on it (float32). Shared by the copies :func:`dataclasses.replace` makes for each threshold.
+    sink_memo: dict = field(default_factory=dict, repr=False, compare=False)
 
     #: The funnel's entry for the core configurations left without a feed.
     label: ClassVar[str] = "feeds not built: cost bound above the search threshold"
@@ -185,11 +296,36 @@ class FeedBound:
     def units(self, per_board: float) -> float:
         return order_units(per_board, self.factor)
 
-    def row_bound(self, s, d_i: int, per: int, channels: int) -> np.ndarray:
-        """The bound of every core configuration fed by source pair ``s`` and reference ``d_i`` (``per`` in series)."""
+    def row_bound(self, s, d_i: int, per: int, channels: int, sink_cost: np.ndarray | None = None) -> np.ndarray:
+        """The bound of every core configuration fed by source pair ``s`` and reference ``d_i`` (``per`` in series).
+
+        ``sink_cost``: the sources sit on the heatsink, and this is
+        :meth:`sink_cost`'s least heatsink per core; None: in free air.
+        """
         parts = (self.units(channels) * (self.transistor_price[s.npn_i] + self.transistor_price[s.pnp_i])
                  + self.units(2 * channels * per) * self.diode_price[d_i])
-        return self.core_lb + parts
+        if self.sinks is None:
+            return self.core_lb + parts
+        sink = self.core_sink if sink_cost is None else sink_cost
+        return self.core_parts + sink + self.fees.floor(s.npn_i, s.pnp_i, d_i) + parts
+
+    def sink_cost(self, s, limits) -> np.ndarray:
+        """Per core configuration: the least heatsink with source pair ``s`` on it.
+
+        ``limits()`` gives the sink limits [core, class] at the sources' least
+        heat (see the class); computed once per pair for every threshold.
+        """
+        key = (int(s.npn_i), int(s.pnp_i))
+        if key not in self.sink_memo:
+            self.sink_memo[key] = self.sinks.with_sources(limits(), s.package).astype(np.float32)
+        # float32 rounds; its next value down keeps the bound at or below the float64 one (inf stays inf).
+        kept = self.sink_memo[key]
+        return np.where(np.isinf(kept), np.inf, np.nextafter(kept, np.float32(-np.inf)).astype(float))
+
+    @property
+    def refined(self) -> bool:
+        """Whether rows on the sink get their own heatsink (:meth:`sink_cost`)."""
+        return self.sinks is not None
 
 
 @dataclass
@@ -216,7 +352,9 @@ class ChangeBound:
 
     label: ClassVar[str] = "feeds not built: more changed roles than the search level"
 
-    def row_bound(self, s, d_i: int, per: int, channels: int) -> np.ndarray:
+    refined: ClassVar[bool] = False  # no heatsink in the count
+
+    def row_bound(self, s, d_i: int, per: int, channels: int, sink_cost: np.ndarray | None = None) -> np.ndarray:
         pair = frozenset((self.transistor_mpn[s.npn_i], self.transistor_mpn[s.pnp_i]))
         own = float(pair != self.source_pair) + float(frozenset((self.diode_mpn[d_i],)) != self.reference)
         return self.core_lb + own
@@ -770,6 +908,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     span = core["span_max_v"].to_numpy(float)
     core_cols = _stage_columns(core)
     amb = spec.thermal.ambient_c
+    low = _LowHeat.of(spec, core, sink, core_cols) if bound is not None and bound.refined else None
     family = fams["family"].to_numpy(object)
     power_w = fams["power_w"].to_numpy(float)
     series_groups = [(key, list(members)) for key, members in fams.groupby(["series", "value_min", "value_max"], sort=False, dropna=False).indices.items()]
@@ -778,58 +917,73 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
         mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
         vbe_req = dev["vbe"](i_req)
+        low_sink = (bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev))
+                    if low is not None and "heatsink" in mounts else None)
         for d_i, per, vref, if_max in refs:
             room = vref - vbe_req >= CCS_MIN_RE_DROP_V
+            mount_room = {mount: room for mount in mounts}
             if bound is not None:
-                lb = bound.row_bound(s, d_i, per, targets.channels)
-                left_out = room & (lb > bound.threshold)
-                skipped |= left_out
-                cut |= left_out & np.isfinite(lb)
-                room &= ~left_out
+                for mount in mounts:
+                    lb = bound.row_bound(s, d_i, per, targets.channels, low_sink if mount == "heatsink" else None)
+                    left_out = room & (lb > bound.threshold)
+                    skipped |= left_out
+                    cut |= left_out & np.isfinite(lb)
+                    mount_room[mount] = room & ~left_out
+                room = np.logical_or.reduce([mount_room[m] for m in mounts])
             if not room.any():
                 continue
             # Families of one E-series and value range give the same resistor
             # values and currents; only their power rating tells them apart.
+            # Everything below runs on the rows that can be built at all (``ix``).
+            ix = np.flatnonzero(room & compliance & vceo_ok)
+            if not len(ix):
+                continue
+            dev_ix = {**dev, "soa_2vs_a": dev["soa_2vs_a"][ix]}
+            r_min, r_max, need = rail_min[ix], rail_max[ix], i_need[ix]
             per_fam: list = [None] * len(fams)
             for (series, v_min, v_max), members in series_groups:
-                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe_req, i_req), series, v_min, v_max), float)
+                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe_req[ix], i_req[ix]), series, v_min, v_max), float)
                 with np.errstate(divide="ignore", invalid="ignore"):
                     i_lo, i_act = dev["current"](vref, r_e)
                     i_ref = swing.ccs_reference_current_a(i_act, dev["hfe"](i_act))
-                    r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(rail_min, vref, i_ref), series, v_min, v_max), float)
-                    i_ref_max = (rail_max - vref) / r_ref
+                    r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(r_min, vref, i_ref), series, v_min, v_max), float)
+                    i_ref_max = (r_max - vref) / r_ref
                     p_e = i_act**2 * r_e
-                    p_ref = (rail_max - vref) ** 2 / r_ref
+                    p_ref = (r_max - vref) ** 2 / r_ref
                 built = (
-                    room & compliance & vceo_ok & np.isfinite(r_e) & np.isfinite(r_ref) & (i_lo >= i_need)
+                    np.isfinite(r_e) & np.isfinite(r_ref) & (i_lo >= need)
                     & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
                 )
                 p_most = np.maximum(p_e, p_ref)
-                free_air_ok = _ccs_thermal_ok(dev, "free_air", rail_max, i_act, amb) if "free_air" in mounts else None
+                free_air_ok = _ccs_thermal_ok(dev_ix, "free_air", r_max, i_act, amb) if "free_air" in mounts else None
                 for m in members:
                     fits = built & (power_w[m] >= RESISTOR_POWER_MARGIN * p_most)
                     per_fam[m] = (family[m], r_e, r_ref, p_e, p_ref, i_act, fits, free_air_ok)
             for mount in mounts:
                 # In free air each source's junction and SOA must hold; on the sink they join the sink limits.
-                fam_fits = [fits & thermal if mount == "free_air" else fits for *_r, fits, thermal in per_fam]
-                best = np.zeros(len(core))
+                here = mount_room[mount][ix]
+                fam_fits = [fits & here & (thermal if mount == "free_air" else True) for *_r, fits, thermal in per_fam]
+                best = np.zeros(len(ix))
                 for (*_r, i_act, _f, _t), ok in zip(per_fam, fam_fits):
                     best = np.maximum(best, np.where(ok, i_act, 0.0))
                 limits = None
                 if mount == "heatsink":
                     # Only rows a source can feed need the sink limits; the others stay unserved.
                     cand = np.flatnonzero(best > 0)
-                    limits = np.full((len(core), len(sink.classes)), -np.inf)
-                    limits[cand] = _ccs_sink_limits(spec, core_cols, sink, dev, rail_max, best, cand)
+                    limits = np.full((len(ix), len(sink.classes)), -np.inf)
+                    current = np.zeros(len(core))
+                    current[ix] = best
+                    limits[cand] = _ccs_sink_limits(spec, core_cols, sink, dev, rail_max, current, ix[cand])
                     best = np.where(np.nanmax(limits, axis=1) > 0, best, 0.0)
-                idx = np.flatnonzero(best > 0)
-                if not len(idx):
+                kept = np.flatnonzero(best > 0)
+                if not len(kept):
                     continue
-                pos = -np.ones(len(core), dtype=int)
-                pos[idx] = np.arange(len(idx))
+                idx = ix[kept]
+                pos = -np.ones(len(ix), dtype=int)
+                pos[kept] = np.arange(len(kept))
                 frame = pd.DataFrame(dict(
                     feed="current_source", ccs_n_i=int(s.npn_i), ccs_p_i=int(s.pnp_i), ref_i=int(d_i), ref_per_source=per,
-                    standing_a=best[idx], ccs_mount=mount, ccs_package=s.package if mount == "heatsink" else "",
+                    standing_a=best[kept], ccs_mount=mount, ccs_package=s.package if mount == "heatsink" else "",
                     sink_devices=sink.n_dev + (2 * sink.channels if mount == "heatsink" else 0),
                 ))
                 chosen = [(f, np.flatnonzero(ok & (best > 0))) for f, ok in zip(per_fam, fam_fits)]
@@ -842,7 +996,99 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                         kind="ccs_resistors", v1=cat(1), v2=cat(2), p1_w=cat(3), p2_w=cat(4),
                     ))
 
-                yield idx, frame, sum(len(ks) for _f, ks in chosen), options, (None if limits is None else limits[idx])
+                yield idx, frame, sum(len(ks) for _f, ks in chosen), options, (None if limits is None else limits[kept])
+
+
+@dataclass
+class _LowHeat:
+    """What a :class:`FeedBound`'s sink limits need: the sources' heat at the least current that can feed each core.
+
+    A real row's current is at least :func:`~partpick.model.swing.ccs_current_required_a`
+    (its checked lower bound meets it), and every limit falls as heat rises.
+    """
+
+    cols: dict[str, np.ndarray]  # the cores' _stage_columns
+    rail_max: np.ndarray
+    i_a: np.ndarray
+    outputs: np.ndarray  # [core, class] the output devices' limits with that heat
+
+    @classmethod
+    def of(cls, spec: Spec, core: pd.DataFrame, sink: _Sink, cols: dict[str, np.ndarray] | None = None) -> _LowHeat:
+        cols = cols if cols is not None else _stage_columns(core)
+        rail_max = core["rail_max_v"].to_numpy(float)
+        i_a = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
+        return cls(cols, rail_max, i_a, _stage_rth(spec, cols, sink, sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)))
+
+    def limits(self, spec: Spec, sink: _Sink, dev: dict) -> np.ndarray:
+        """[core, class] with a pair ``dev`` of sources on the sink."""
+        return _ccs_sink_limits(spec, self.cols, sink, dev, self.rail_max, self.i_a, np.arange(len(self.i_a)), outputs=self.outputs)
+
+
+def feed_row_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, bound: FeedBound, configs: pd.DataFrame) -> np.ndarray:
+    """The bound ``bound`` gives each row of ``configs`` (a stage table's rows; a resistor feed: its core's bound).
+
+    What :func:`_ccs_variants` compares with the threshold, row by row (for
+    checks of the bounds against the MILP).
+    """
+    core_i = configs["core_i"].to_numpy(int)
+    out = bound.core_lb[core_i].astype(float)
+    ccs = np.flatnonzero((configs["feed"] == "current_source").to_numpy())
+    if not len(ccs):
+        return out
+    small, _refs = _ccs_candidates(pool)
+    low = _LowHeat.of(spec, cores.core, cores.sink) if bound.refined else None
+    rail_max = cores.core["rail_max_v"].to_numpy(float)
+    sub = configs.iloc[ccs]
+    for (n_i, p_i), idx in sub.groupby(["ccs_n_i", "ccs_p_i"]).indices.items():
+        s = next(x for x in small.itertuples(index=False) if int(x.npn_i) == n_i and int(x.pnp_i) == p_i)
+        rows = ccs[idx]
+        on_sink = (configs["ccs_mount"].to_numpy()[rows] == "heatsink")
+        dev = _ccs_device(s, spec, rail_max)
+        cost = bound.sink_cost(s, lambda: low.limits(spec, cores.sink, dev)) if low is not None and on_sink.any() else None
+        for (d_i, per, mount), at in configs.iloc[rows].groupby(["ref_i", "ref_per_source", "ccs_mount"]).indices.items():
+            b = bound.row_bound(s, int(d_i), int(per), targets.channels, cost if mount == "heatsink" else None)
+            out[rows[at]] = b[core_i[rows[at]]]
+    return out
+
+
+def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, bound: FeedBound) -> np.ndarray:
+    """The bounds of the current-source rows ``bound`` could build, ascending: to choose thresholds by table size.
+
+    A row counts when its pair, reference and mounting pass their own checks
+    at the least current that can feed its core (compliance, Vceo, the
+    reference's room, the free-air junction and SOA); the resistor
+    families' checks are left out. So the count under a threshold is at
+    least the number of current-source rows a table at that threshold has.
+    """
+    core, sink = cores.core, cores.sink
+    if core is None or spec.stage.bias_feed == "resistor":
+        return np.zeros(0)
+    small, refs = _ccs_candidates(pool)
+    rail_min = core["rail_min_v"].to_numpy(float)
+    rail_max = core["rail_max_v"].to_numpy(float)
+    i_need = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
+    fixed = spec.stage.bias_source_current_a
+    i_req = np.full(len(core), fixed) if fixed is not None else np.maximum(i_need, CCS_MIN_CURRENT_A)
+    compliance = swing.ccs_compliance_margin_v(rail_min, core["base_peak_v"].to_numpy(float)) >= 0
+    span = core["span_max_v"].to_numpy(float)
+    low = _LowHeat.of(spec, core, sink) if bound.refined else None
+    out: list[np.ndarray] = []
+    for s in small.itertuples(index=False):
+        dev = _ccs_device(s, spec, rail_max)
+        base = compliance & (soa.vceo_margin_v(dev["vceo_v"], span) >= 0)
+        if not base.any():
+            continue
+        mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
+        vbe_req = dev["vbe"](i_req)
+        sink_cost = bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev)) if low is not None and "heatsink" in mounts else None
+        free_ok = _ccs_thermal_ok(dev, "free_air", rail_max, i_need, spec.thermal.ambient_c) if "free_air" in mounts else None
+        for d_i, per, vref, _if_max in refs:
+            room = base & (vref - vbe_req >= CCS_MIN_RE_DROP_V)
+            for mount in mounts:
+                ok = room & free_ok if mount == "free_air" else room
+                lb = bound.row_bound(s, d_i, per, targets.channels, sink_cost if mount == "heatsink" else None)[ok]
+                out.append(lb[np.isfinite(lb)])
+    return np.sort(np.concatenate(out)) if out else np.zeros(0)
 
 
 def _ccs_candidates(pool: Pool) -> tuple[pd.DataFrame, list[tuple[int, int, float, float]]]:
@@ -918,10 +1164,12 @@ def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray
 
 
 def _ccs_sink_limits(spec: Spec, core: dict[str, np.ndarray], sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
-                     rows: np.ndarray) -> np.ndarray:
+                     rows: np.ndarray, outputs: np.ndarray | None = None) -> np.ndarray:
     """Largest Rth_sa per mounting class with the current sources on the sink [row of ``rows``, class].
 
-    ``core``: the core configurations' :func:`_stage_columns`.
+    ``core``: the core configurations' :func:`_stage_columns`. ``outputs``:
+    the output devices' part, when the caller has it for these rows and
+    currents (it does not depend on the source pair).
 
     The output devices' limits with the sources' heat added to the sink, and
     the source transistor's own junction and SOA at its case temperature.
@@ -930,7 +1178,8 @@ def _ccs_sink_limits(spec: Spec, core: dict[str, np.ndarray], sink: _Sink, dev: 
     util = _ccs_soa_util(dev, i_a)[rows]
     rail_max, i_a = rail_max[rows], i_a[rows]
     extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
-    outputs = _stage_rth(spec, core, sink, extra, rows)
+    if outputs is None:
+        outputs = _stage_rth(spec, core, sink, extra, rows)
     p_sink = sink.n_dev * core["p_device_w"][rows] + extra
     p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
     own = []

@@ -29,14 +29,29 @@ ROLE_ORDER = (
 #: Roles whose parts come with the output-stage configuration (the ``stage`` group's options).
 STAGE_ROLES = ("output_npn", "output_pnp", "bias_source_transistor", "regulator")
 
-#: Most (core configuration, heatsink) pairs :func:`run_bounded`'s relaxed table may
-#: bound; above it the size-limit error stands. The large benchmark has
-#: 70,776 x 10,000: its bounds took 24.8 s and 7.7 GB. The shipped desk
-#: example at 0.5 W on the demo catalogue has 32,696 x 12 and designs in
-#: about 2.3 s.
-RELAXED_CELLS_MAX = 20_000_000
+#: Most core configurations :func:`run_bounded`'s relaxed table may bound; above it
+#: the size-limit error stands. The relaxed table prices the heatsink apart
+#: (:class:`~partpick.evaluate.stage.SinkCosts`), so it pairs no configurations
+#: with heatsinks.
+RELAXED_ROWS_MAX = 400_000
+#: Most (core configuration, heatsink) pairs of a catalogue :func:`run_bounded` searches
+#: without a time limit. Its bounds no longer pair them (about 5 s on the large
+#: benchmark catalogue, 70,776 x 10,000), but a catalogue that large, with its
+#: hundred suppliers, gives MILPs that CBC does not prove in minutes: there the
+#: first table (2,224 configurations) found a current-source design of 82.57 EUR
+#: (the resistor feed's optimum is 132.06) and had not proven it after 120 s.
+#: The shipped desk example at 0.5 W has 32,696 x 12.
+UNTIMED_CELLS_MAX = 20_000_000
 #: Growth of :func:`run_bounded`'s threshold above the least bound after a round without a design.
 BOUND_GROWTH = 2.0
+#: Current-source rows (counted by :func:`~partpick.evaluate.stage.candidate_bounds`) the
+#: first table of :func:`run_bounded` holds at least: a table that small rarely has a
+#: design cheaper than the resistor feeds' (all built), which would leave the next
+#: threshold at that design's cost.
+FIRST_ROWS = 2_000
+#: Growth of the rows between two tables of :func:`run_bounded` short of the cost
+#: of the design found (or with none).
+ROWS_GROWTH = 4
 #: Most of :func:`run_bounded`'s rounds whose table is past the size limit (each
 #: halves the step that led there) before it settles for the design it has.
 BOUND_SPLITS = 4
@@ -50,6 +65,8 @@ class BoundedSearch:
     cores: StageCores
     bound: FeedBound  # threshold left at inf
     forbidden: tuple[str, ...] = ()  # mpns no option may use (:func:`design_without`)
+    #: :func:`~partpick.evaluate.stage.candidate_bounds` (sorted), once the rounds have counted them.
+    candidates: np.ndarray | None = None
 
     @property
     def floor(self) -> float:
@@ -105,12 +122,12 @@ def prepare(
     return DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings))
 
 
-def finish(result: DesignResult, *, solver: str = "cbc", time_limit: float | None = None) -> DesignResult:
-    """Solve a prepared design and check the chosen selection in full."""
+def finish(result: DesignResult, *, solver: str = "cbc", time_limit: float | None = None, start: Solution | None = None) -> DesignResult:
+    """Solve a prepared design and check the chosen selection in full (``start``: a design to start from, see :func:`milp.solve`)."""
     if result.status != "prepared":
         return result
     asm = result.assembly
-    sol = solve(asm.problem, solver=solver, time_limit=time_limit)
+    sol = solve(asm.problem, solver=solver, time_limit=time_limit, start=start)
     if sol.status == "infeasible":
         return replace(result, solution=sol, status="infeasible")
     check = check_chosen(result.spec, result.pool, result.targets, result.stage, asm, sol.choice)
@@ -147,14 +164,37 @@ def run(
     return _forced_finish(result, forced, solver, time_limit)
 
 
-def _forced_finish(result: DesignResult, forced: dict[str, str] | None, solver: str, time_limit: float | None) -> DesignResult:
+def _forced_finish(result: DesignResult, forced: dict[str, str] | None, solver: str, time_limit: float | None,
+                   start: Solution | None = None) -> DesignResult:
     if result.status != "prepared":
         return result
     for role, mpn in (forced or {}).items():
         if not force_part(result.assembly, role, mpn):
             result.status = "infeasible"
             return result
-    return finish(result, solver=solver, time_limit=time_limit)
+    return finish(result, solver=solver, time_limit=time_limit, start=start)
+
+
+def _carried(best: DesignResult | None, asm: Assembly) -> Solution | None:
+    """``best``'s design in the option indices of ``asm`` (a larger bounded table of the same search); None when one is missing.
+
+    A larger threshold's table holds every row of a smaller one's, and so
+    every option the rows use; the design, its order included, is then a
+    design of the new problem to start from.
+    """
+    if best is None:
+        return None
+    old, new = best.assembly.problem.groups, asm.problem.groups
+    choice = {}
+    for g, i in best.solution.choice.items():
+        if g not in new:
+            return None
+        at = {key: j for j, key in enumerate(new[g].keys)}
+        j = at.get(old[g].keys[i])
+        if j is None or len(at) != len(new[g].keys):
+            return None  # missing, or keys not unique
+        choice[g] = j
+    return replace(best.solution, choice=choice, bounds=None)
 
 
 def run_bounded(
@@ -184,17 +224,20 @@ def run_bounded(
     3. the rows under a threshold are built and the design is solved as
        usual; when its optimum z plus the tie-break margin is at or below the
        threshold, it is the optimum of the whole table (every row left out
-       has a bound above z). Otherwise the threshold rises to the cheapest
-       design's z plus margin, where one more round proves it, or, with no
-       design yet, geometrically (:data:`BOUND_GROWTH`). A threshold whose
-       table is past the size limit is halved back towards the last table
-       built, up to :data:`BOUND_SPLITS` times; then a design found is
-       returned "not proven optimal" (as one past the time limit is).
+       has a bound above z). The thresholds go by table size, counted
+       without building (:func:`~partpick.evaluate.stage.candidate_bounds`):
+       the first holds :data:`FIRST_ROWS` candidate rows; each next one
+       :data:`ROWS_GROWTH` times the last one's (and :data:`BOUND_GROWTH`
+       times its distance to the least bound at least), but no more than the
+       cheapest design's z plus margin, where one more round proves it. The
+       design found so far is the next round's start (:func:`_carried`). A
+       threshold whose table is past the size limit is halved back towards
+       the last table built, up to :data:`BOUND_SPLITS` times; then a design
+       found is returned "not proven optimal" (as one past the time limit is).
 
     ``too_large``: the whole table's size-limit error, raised again when no
     core configuration has a design even fed by nothing, or when the relaxed
-    table pairs more than :data:`RELAXED_CELLS_MAX` core configurations and
-    heatsinks (its bounds would outgrow the machine).
+    table has more than :data:`RELAXED_ROWS_MAX` core configurations.
 
     Exact for the cost; between designs of equal cost, the tie-break may pick
     another than the whole table would. The result's ``stage.cost_bound``
@@ -202,7 +245,7 @@ def run_bounded(
     any design that costs no more.
     """
     spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": "cost"})})
-    pool, targets, search = _bounded_start(spec, catalog, exclude, spec_label, too_large)
+    pool, targets, search = _bounded_start(spec, catalog, exclude, spec_label, too_large, time_limit)
     if search is None:
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
@@ -260,7 +303,23 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
 
     bound, cores, catalog = search.bound, search.cores, search.catalog
     floor = search.floor
-    threshold = first_threshold(floor) if threshold is None else max(threshold, first_threshold(floor))
+    if search.candidates is None:
+        search.candidates = stage_rules.candidate_bounds(spec, pool, targets, cores, bound)
+    counted = search.candidates
+
+    def at_rows(n: int) -> float:
+        """The least threshold under which ``n`` candidate rows lie (the last bound when fewer)."""
+        return float(counted[min(n, len(counted)) - 1]) if len(counted) and n > 0 else floor
+
+    def next_up(at: float) -> float:
+        """The threshold after ``at``: ROWS_GROWTH times its candidate rows, and BOUND_GROWTH times its distance to the floor at least."""
+        rows = int(np.searchsorted(counted, at, side="right"))
+        return max(floor + BOUND_GROWTH * (at - floor), at_rows(ROWS_GROWTH * max(rows, 1)))
+
+    if threshold is None:
+        threshold = max(first_threshold(floor), at_rows(FIRST_ROWS))
+    else:
+        threshold = max(threshold, first_threshold(floor))
     deadline = None if time_limit is None else _clock() + time_limit
     best: DesignResult | None = None  # the cheapest design found, not yet proven
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
@@ -288,7 +347,7 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
                 if best is None:
                     raise SolverTimeout(time_limit)
                 return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
-            result = _forced_finish(result, forced, solver, left)
+            result = _forced_finish(result, forced, solver, left, _carried(best, asm))
             if result.status == "not proven optimal":
                 if best is not None and best.solution.total < result.solution.total:
                     return _unproven(best, "the time limit ran out before it was proven")
@@ -303,20 +362,37 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
                     return result
                 if best is None or result.solution.total < best.solution.total:
                     best, best_reach = result, reach
-                # Where one more round proves it, unless that table was too large already.
-                threshold = best_reach if best_reach < past else 0.5 * (done + past)
+                # Where one more round proves it (a larger table first, when that one
+                # is far larger: it may hold a cheaper design, whose round is smaller),
+                # unless that table was too large already.
+                step = min(best_reach, next_up(threshold))
+                threshold = step if step < past else 0.5 * (done + past)
                 continue
         if stage.cut_cores == 0:
             return result  # every feed was built: no design at all
-        grown = floor + BOUND_GROWTH * (threshold - floor)
+        grown = next_up(threshold)
         threshold = grown if grown < past else 0.5 * (done + past)
 
 
-def _bounded_start(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_label: str, too_large: SizeLimitError | None):
-    """(pool, targets, the :func:`_bounded_search` over its core configurations) of a bounded search."""
+def _bounded_start(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_label: str, too_large: SizeLimitError | None,
+                   time_limit: float | None):
+    """(pool, targets, the :func:`_bounded_search` over its core configurations) of a bounded search.
+
+    Without a time limit, a search past :data:`UNTIMED_CELLS_MAX` raises
+    ``too_large``, saying that a time limit lets it go on.
+    """
     pool = make_pool(spec, catalog, tuple(exclude), spec_label)
     targets = Targets.from_spec(spec)
-    return pool, targets, _bounded_search(spec, pool, targets, catalog, stage_cores(spec, pool, targets), too_large)
+    cores = stage_cores(spec, pool, targets)
+    n_cores = 0 if cores.core is None else len(cores.core)
+    if time_limit is None and n_cores * len(pool.heatsinks) > UNTIMED_CELLS_MAX:
+        raise SizeLimitError(
+            f"{too_large or 'too many stage configurations'}; or give a time limit (--time-limit S): with {n_cores:,} "
+            f"output-stage configurations and {len(pool.heatsinks):,} heatsinks the search for the cheapest "
+            f"current-source design can run for hours, and under a limit it returns the cheapest design found by then, "
+            f"marked not proven optimal"
+        )
+    return pool, targets, _bounded_search(spec, pool, targets, catalog, cores, too_large)
 
 
 def _bounded_search(spec: Spec, pool: Pool, targets: Targets, catalog: Catalog, cores: StageCores,
@@ -327,7 +403,7 @@ def _bounded_search(spec: Spec, pool: Pool, targets: Targets, catalog: Catalog, 
     """
     bound = feed_bound(spec, pool, targets, cores, forbidden)
     if bound is None:
-        raise too_large or SizeLimitError(f"more than {RELAXED_CELLS_MAX:,} stage configuration and heatsink pairs")
+        raise too_large or SizeLimitError(f"more than {RELAXED_ROWS_MAX:,} core configurations to bound")
     return BoundedSearch(catalog, cores, bound, forbidden) if np.isfinite(bound.core_lb).any() else None
 
 
@@ -347,7 +423,7 @@ def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = 
     from partpick.errors import SolverTimeout
     from partpick.optimize.milp import _clock, first_threshold, has_design
 
-    pool, targets, search = _bounded_start(spec, catalog, exclude, "spec", too_large)
+    pool, targets, search = _bounded_start(spec, catalog, exclude, "spec", too_large, time_limit)
     if search is None:
         return False
     floor = search.floor
@@ -417,30 +493,96 @@ def _bounded_rows(result: DesignResult) -> str:
 def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, forbidden: tuple[str, ...] = ()) -> FeedBound | None:
     """:func:`run_bounded`'s bounds (threshold left at ``inf``); None when the relaxed table is too large to bound.
 
-    ``core_lb``: :func:`~partpick.optimize.prune.design_bounds` of the relaxed
-    table's stage options, per core configuration (``inf`` where the relaxed
-    table has no design). ``forbidden``: mpns no design may use; the relaxed
-    table's options that use one are left out before the bounds, and their
-    prices are ``inf`` (as if the parts were not in the catalogue).
+    ``core_lb``: per core configuration, a lower bound on any design holding
+    it (``inf`` where the relaxed table has no design). It is the sum of
+    :func:`~partpick.optimize.prune.lower_bounds` and
+    :func:`~partpick.optimize.prune.fee_floors` of the relaxed table
+    assembled without its heatsink group (``core_parts``, and the fees), and
+    the least heatsink that suits the core (``core_sink``, from
+    :class:`~partpick.evaluate.stage.SinkCosts`): the heatsink's own cost is
+    what the tree bound would add for it, and its sellers only left out of
+    the fees. The rows' bounds then add what their current sources need
+    (:class:`~partpick.evaluate.stage.FeedBound`). ``forbidden``: mpns no
+    design may use; the relaxed table's options and the heatsinks that use
+    one are left out before the bounds, and their prices are ``inf`` (as if
+    the parts were not in the catalogue).
     """
-    from partpick.optimize.prune import design_bounds, restrict
+    from partpick.optimize.prune import _all_needs, fee_floors, lower_bounds, restrict
 
     relaxed = evaluate_stage(spec, pool, targets, relaxed=True, cores=cores)
-    if len(relaxed.configs) * max(len(pool.heatsinks), 1) > RELAXED_CELLS_MAX:
+    if len(relaxed.configs) > RELAXED_ROWS_MAX:
         return None
-    rasm = assemble(spec, pool, targets, relaxed)
-    core_lb = np.full(len(cores.core), np.inf)
+    rasm = assemble(spec, pool, targets, relaxed, heatsinks=False)
+    n = 0 if cores.core is None else len(cores.core)
+    core_parts, core_fee = np.full(n, np.inf), np.full(n, np.inf)
+    transistor_price, diode_price = _feed_prices(pool)
+    transistor_price[pool.transistors["mpn"].isin(forbidden).to_numpy()] = np.inf
+    diode_price[pool.diodes["mpn"].isin(forbidden).to_numpy()] = np.inf
+    fees = None
     if rasm is not None and rasm.problem is not None:
         problem = rasm.problem
         keep = {g: np.flatnonzero(~bad) for g, bad in _using(rasm, forbidden).items()}
         if all(len(k) for k in keep.values()):
-            lb = np.full(len(problem.groups["stage"]), np.inf)
-            lb[keep["stage"]] = design_bounds(restrict(problem, keep) if forbidden else problem)["stage"]
-            core_lb[relaxed.configs["core_i"].to_numpy(int)] = lb
-    transistor_price, diode_price = _feed_prices(pool)
-    transistor_price[pool.transistors["mpn"].isin(forbidden).to_numpy()] = np.inf
-    diode_price[pool.diodes["mpn"].isin(forbidden).to_numpy()] = np.inf
-    return FeedBound(core_lb, math.inf, transistor_price, diode_price, spec.order.factor)
+            sub = restrict(problem, keep) if forbidden else problem
+            needs = _all_needs(sub)
+            at = relaxed.configs["core_i"].to_numpy(int)[keep["stage"]]
+            core_parts[at] = lower_bounds(sub, needs)["stage"]
+            core_fee[at] = fee_floors(sub, needs)["stage"]
+            fees = _fee_floors(pool, sub, needs, at, core_fee)
+    if fees is None:
+        fees = stage_rules.FeeFloors(core_fee, np.full(len(pool.transistors), np.inf), np.full(len(pool.diodes), np.inf))
+    sinks = _sink_costs(spec, pool, targets, cores, (rasm.tables.get("heatsink") if rasm is not None else None), forbidden)
+    core_sink = sinks.own(cores.rth_max) if n else np.zeros(0)
+    return FeedBound(core_parts + core_fee + core_sink, math.inf, transistor_price, diode_price, spec.order.factor,
+                     core_parts=core_parts, core_sink=core_sink, sinks=sinks, fees=fees)
+
+
+def _fee_floors(pool: Pool, problem, needs: dict, at: np.ndarray, core_fee: np.ndarray) -> stage_rules.FeeFloors:
+    """The :class:`~partpick.evaluate.stage.FeeFloors` of the relaxed ``problem``'s stage options (core configurations ``at``)."""
+    from partpick.optimize.problem import _offers
+    from partpick.optimize.prune import cheapest_fee, fee_sets, seller_masks
+
+    tr, di = pool.transistors["mpn"].tolist(), pool.diodes["mpn"].tolist()
+    offers = _offers(pool, {m: (m, None) for m in set(tr) | set(di)})
+    t_offers, d_offers = [offers[m] for m in tr], [offers[m] for m in di]
+    out = stage_rules.FeeFloors(core_fee, cheapest_fee(problem, t_offers), cheapest_fee(problem, d_offers))
+    found = fee_sets(problem, "stage", needs)
+    if found is not None:
+        suppliers, sets, fee, ok, key = found
+        core_key = np.full(len(core_fee), -1, dtype=np.int64)
+        core_key[at] = key
+        out = replace(out, key=core_key, ok=ok, fee=fee, sets=sets,
+                      transistor_mask=seller_masks(t_offers, suppliers), diode_mask=seller_masks(d_offers, suppliers))
+    return out
+
+
+def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs, forbidden: tuple[str, ...]) -> stage_rules.SinkCosts:
+    """The :class:`~partpick.evaluate.stage.SinkCosts` of the heatsink candidates ``hs`` (assemble's table; None: none)."""
+    from partpick.optimize.buying import cheapest_purchase
+    from partpick.optimize.problem import _offers
+    from partpick.spec import order_units
+
+    sink = cores.sink
+    classes = [] if sink is None else sink.classes
+    class_of = {(-1.0 if math.isnan(c) else c): i for i, c in enumerate(classes)}
+    if hs is None or not len(hs):
+        hs = pool.heatsinks.iloc[:0].assign(mounts=[], rth_class=[], per_board=[])
+    mounts = list(hs["mounts"])
+    names = sorted({p for m in mounts for p in m})
+    code = {p: i for i, p in enumerate(names)}
+    holds = np.array([[p in m for p in names] for m in mounts], dtype=bool).reshape(len(hs), len(names))
+    offers = _offers(pool, {m: (m, None) for m in set(hs["mpn"])})
+    cost = np.array([cheapest_purchase(offers[m], math.ceil(order_units(float(n), spec.order.factor)))
+                     for m, n in zip(hs["mpn"], hs["per_board"])], dtype=float)
+    cost[hs["mpn"].isin(forbidden).to_numpy()] = np.inf
+    class_i = np.array([class_of[-1.0 if (isinstance(c, float) and math.isnan(c)) else float(c)] for c in hs["rth_class"]], dtype=np.int64)
+    if cores.core is not None:
+        pkg = cores.pairs["package"].to_numpy()[cores.core["pair_i"].to_numpy(int)]
+        core_package = np.array([code.get(p, -1) for p in pkg], dtype=np.int64)
+    else:
+        core_package = np.zeros(0, np.int64)
+    return stage_rules.SinkCosts(hs["rth_sa_k_w"].to_numpy(float), class_i, holds, hs["max_devices"].to_numpy(int), cost, code,
+                                 core_package, 0 if sink is None else sink.n_dev, 0 if sink is None else sink.channels)
 
 
 def _feed_prices(pool: Pool) -> tuple[np.ndarray, np.ndarray]:

@@ -44,8 +44,15 @@ def line_key(source: str, value: float | None = None) -> str:
     return source if value is None else f"{source}@{format_value(value)}"
 
 
-def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Assembly | None:
-    """The MILP for this spec, or None when some group has no feasible option."""
+def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, *, heatsinks: bool = True) -> Assembly | None:
+    """The MILP for this spec, or None when some group has no feasible option.
+
+    ``heatsinks=False`` leaves the heatsink group out (its candidates stay in
+    ``tables["heatsink"]``): a relaxed table whose bounds price the heatsink
+    apart (:class:`~partpick.evaluate.stage.SinkCosts`) needs no pairs of
+    configurations and heatsinks, which a large catalogue has by the hundred
+    million.
+    """
     ch = targets.channels
     lines: dict[str, tuple[str, float | None]] = {}
     tables: dict[str, pd.DataFrame] = {}
@@ -184,6 +191,9 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
     candidates["heatsink"] = hc
     funnel["heatsink"] = _counts(hc)
     hs = hc[hc["feasible"]].reset_index(drop=True)
+    if not heatsinks:
+        tables["heatsink"] = hs
+        hs = hs.iloc[:0]
     # A heatsink fits a configuration when it mounts its package and its rating is
     # at or below what that configuration tolerates with the sink's mounting (s.6, s.13).
     # Current sources mounted on the sink need their package mounted and two
@@ -203,13 +213,14 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable) -> Ass
         hs_compat.append(np.flatnonzero(
             (stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & holds[k_pkg_c] & holds[k_src_c] & (k_devices <= n_max)
         ))
-    keep = [i for i, c in enumerate(hs_compat) if len(c)]
-    hs = hs.iloc[keep].reset_index(drop=True)
-    groups["heatsink"] = Group(
-        "heatsink", list(hs["mpn"]), [[use(m, None, n, "heatsink")] for m, n in zip(hs["mpn"], hs["per_board"])],
-        parent="stage", compat=[hs_compat[i] for i in keep],
-    )
-    tables["heatsink"] = hs
+    if heatsinks:
+        keep = [i for i, c in enumerate(hs_compat) if len(c)]
+        hs = hs.iloc[keep].reset_index(drop=True)
+        groups["heatsink"] = Group(
+            "heatsink", list(hs["mpn"]), [[use(m, None, n, "heatsink")] for m, n in zip(hs["mpn"], hs["per_board"])],
+            parent="stage", compat=[hs_compat[i] for i in keep],
+        )
+        tables["heatsink"] = hs
 
     groups["bias_diode"] = Group("bias_diode", list(d_ok["mpn"]), [[use(m, None, 2 * ch, "bias_diode")] for m in d_ok["mpn"]])
     tables["bias_diode"] = d_ok

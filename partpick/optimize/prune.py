@@ -410,6 +410,49 @@ def fee_floors(problem: Problem, needs: dict | None = None) -> dict[str, np.ndar
     return out
 
 
+def fee_sets(problem: Problem, g: str, needs: dict | None = None, max_cells: int = 50_000_000):
+    """:func:`fee_floors`' supplier sets for the options of group ``g``, to add requirements to later.
+
+    Returns ``(suppliers, sets, fee, ok, key)``: the supplier sets (bit masks
+    over ``suppliers``) in ascending fee order, their fees, ``ok[key, set]``
+    (the set sells every line of an option with that key and some option of
+    every other group) and each option's key. None when :func:`fee_floors`
+    would fall back to one seller (too many suppliers), or when ``ok`` would
+    hold more than ``max_cells`` cells.
+    """
+    suppliers = sorted(problem.fees)
+    if len(suppliers) > FEE_SUBSETS_MAX_SUPPLIERS:
+        return None
+    code = {s: i for i, s in enumerate(suppliers)}
+    sets = np.arange(1 << len(suppliers), dtype=np.int64)
+    fee = _set_fees(problem, suppliers)
+    sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
+    needs = needs if needs is not None else _all_needs(problem)
+    others = np.ones(len(sets), dtype=bool)
+    for h, grp in problem.groups.items():
+        masks, bits, key_of = _seller_bits(len(grp), *needs[h][:3], sellers)
+        if h == g:
+            if len(bits) * len(sets) > max_cells:
+                return None
+            ok, key = _can_sell(masks, bits, sets), key_of
+        else:
+            others &= _can_sell(masks, bits, sets).any(axis=0)
+    order = np.argsort(fee, kind="stable")
+    return suppliers, sets[order], fee[order], (ok & others)[:, order], key
+
+
+def seller_masks(offers_of: list[list], suppliers: list[str]) -> np.ndarray:
+    """Per list of offers: the bit mask (over ``suppliers``) of the suppliers with a usable offer."""
+    code = {s: i for i, s in enumerate(suppliers)}
+    return np.array([_mask(offers, code) for offers in offers_of], dtype=np.int64)
+
+
+def cheapest_fee(problem: Problem, offers_of: list[list]) -> np.ndarray:
+    """Per list of offers: the least order fee of a supplier with a usable one (inf: none)."""
+    return np.array([min((float(problem.fees[s]) for s, *_rest in usable(offers) if s in problem.fees), default=math.inf)
+                     for offers in offers_of], dtype=float)
+
+
 def _seller_bits(n_options: int, opt: np.ndarray, ids: np.ndarray, names: list[str],
                  sellers: dict[str, int]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The seller masks a group's lines have, the distinct sets of them its options hold, and each option's set.

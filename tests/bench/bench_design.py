@@ -22,6 +22,14 @@ median over ``--repeat`` runs:
 - ``check``: :func:`partpick.optimize.design.check_chosen`;
 - ``report``: :func:`partpick.report.build.build_report`.
 
+When the whole stage table is past partpick's size limit (``evaluate`` then
+times the attempt that meets it), the run goes on as ``partpick design``
+does, through :func:`partpick.optimize.design.run_bounded`, timed as one
+stage ``bounded search`` (its tables, MILPs and check; ``solve`` is the time
+inside the solver, and the stages it replaces print as ``-``). Its
+``--solve-limit`` is run_bounded's time limit; the baselines then run on its
+last table's Problem.
+
 Peak memory is ``resource.getrusage(...).ru_maxrss`` of the worker (the Python
 side) and of its children (the solver processes), read after the partpick
 runs and before the exhaustive baseline.
@@ -84,9 +92,9 @@ from partpick.catalog.loader import Catalog, load_catalog  # noqa: E402
 from partpick.evaluate.context import Targets, make_pool  # noqa: E402
 from partpick.evaluate.stage import evaluate_stage  # noqa: E402
 from partpick.optimize import milp  # noqa: E402
-from partpick.optimize.design import DesignResult, check_chosen  # noqa: E402
+from partpick.optimize.design import DesignResult, check_chosen, run_bounded  # noqa: E402
 from partpick.optimize.milp import Offer, Problem, ceil_units  # noqa: E402
-from partpick.errors import SolverError, UsageError  # noqa: E402
+from partpick.errors import SizeLimitError, SolverError, UsageError  # noqa: E402
 from partpick.optimize.problem import assemble  # noqa: E402
 from partpick.report.build import build_report  # noqa: E402
 from partpick.spec import Spec, load_spec  # noqa: E402
@@ -167,7 +175,13 @@ def staged_run(spec: Spec, folder: Path, solver: str = "cbc", time_limit: float 
     REACHED[0] = "evaluate"
     pool = make_pool(spec, catalog)
     targets = Targets.from_spec(spec)
-    stage = evaluate_stage(spec, pool, targets)
+    try:
+        stage = evaluate_stage(spec, pool, targets)
+    except SizeLimitError as exc:
+        if spec.order.objective != "cost":
+            raise
+        s["evaluate"] = time.perf_counter() - t
+        return _bounded_run(spec, catalog, s, exc, solver, time_limit)
     s["evaluate"] = time.perf_counter() - t
 
     t = time.perf_counter()
@@ -197,6 +211,32 @@ def staged_run(spec: Spec, folder: Path, solver: str = "cbc", time_limit: float 
     status = "ok" if sol.status == "optimal" else "not proven optimal"
     result = DesignResult(spec, pool, targets, stage, asm, sol, check, status, warnings)
 
+    t = time.perf_counter()
+    REACHED[0] = "report"
+    report = build_report(result, catalog.file_sha256, solver=solver)
+    s["report"] = time.perf_counter() - t
+    return StagedRun(s, result, report, catalog)
+
+
+def _bounded_run(spec: Spec, catalog: Catalog, s: dict[str, float], too_large: SizeLimitError, solver: str,
+                 time_limit: float | None) -> StagedRun:
+    """What :func:`partpick.optimize.design.run` does past the size limit: :func:`run_bounded`, timed as one stage.
+
+    ``bounded search`` holds its relaxed table, bounds, tables, MILPs and
+    check (``solve`` the time inside the solver); the whole-table stages it
+    replaces are NaN.
+    """
+    inside = [0.0]
+    t = time.perf_counter()
+    REACHED[0] = "bounded search"
+    with solver_clock(inside):
+        result = run_bounded(spec, catalog, solver=solver, time_limit=time_limit, too_large=too_large)
+    s["bounded search"] = time.perf_counter() - t
+    s["solve"] = inside[0]
+    for k in ("assemble", "build", "build+solve", "check"):
+        s[k] = math.nan
+    if result.status == "infeasible":
+        raise NoDesign("the spec has no feasible design on this catalogue")
     t = time.perf_counter()
     REACHED[0] = "report"
     report = build_report(result, catalog.file_sha256, solver=solver)
@@ -507,7 +547,7 @@ def measure_size(size: str, spec_path: Path, repeat: int, seed: int, solver: str
     out = dict(
         size=size, folder=str(folder), repeat=repeat, solver=solver, bias_feed=spec.stage.bias_feed,
         rows=json.loads((folder / ".complete").read_text()),
-        median={k: statistics.median(r.seconds[k] for r in runs) for k in STAGES},
+        median={k: statistics.median(r.seconds[k] for r in runs) for k in STAGES + ("bounded search",) if k in runs[-1].seconds},
         totals=[r.result.solution.total for r in runs],
         status=last.result.status,
         groups={g: len(grp) for g, grp in problem.groups.items()},
@@ -515,7 +555,7 @@ def measure_size(size: str, spec_path: Path, repeat: int, seed: int, solver: str
         rss_self_mib=rss_self, rss_children_mib=rss_children,
         tolerance=agreement_tolerance(problem, last.result.solution),
     )
-    out["median"]["total"] = sum(out["median"][k] for k in SUMMED)
+    out["median"]["total"] = sum(out["median"][k] for k in SUMMED + ("bounded search",) if not math.isnan(out["median"].get(k, math.nan)))
     try:
         ex = exhaustive_optimum(problem, exhaustive_limit_s)
         out["exhaustive"] = dict(total=ex.total, seconds=ex.seconds, combinations=ex.combinations, subsets=ex.subsets)
@@ -551,8 +591,9 @@ def table(m: dict) -> str:
         f"   bias feed {m['bias_feed']}; MILP groups: {m['groups']}; {m['lines']} BOM lines; solver {m['solver']}; median of {m['repeat']} runs",
         f"   {'stage':<13}{'median [s]':>12}",
     ]
-    for k in (*STAGES, "total"):
-        lines.append(f"   {k:<13}{med[k]:>12.3f}")
+    for k in (*STAGES, "bounded search", "total"):
+        if k in med:
+            lines.append(f"   {k:<13}{med[k]:>12.3f}" if not math.isnan(med[k]) else f"   {k:<13}{'-':>12}")
     lines.append(f"   peak memory (ru_maxrss): python {m['rss_self_mib']:.0f} MiB; "
                  f"largest child (solver, counted from fork, so at least python's size then) {m['rss_children_mib']:.0f} MiB")
     pp = m["totals"][-1]
