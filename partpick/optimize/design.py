@@ -281,6 +281,9 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
     if search is None:
         # No core configuration has a design without the parts even fed by nothing: none at all.
         return replace(result, assembly=None, solution=None, check=None, status="infeasible", warnings=[], search=None)
+    # The rounds count candidate rows only to choose thresholds: the parent's count, with
+    # the parts' rows still in it, serves (a threshold is valid whatever table it builds).
+    search.candidates = result.search.candidates
     problem = result.assembly.problem
     if start is not None and start.status != "infeasible":
         threshold = objective_value(problem, start) + _tie_margin(problem, start)
