@@ -102,3 +102,33 @@ def test_routes_agree_on_the_small_size(small_folder: Path, spec_path: Path) -> 
     whole = unpruned_route(problem, "cbc", time_limit_s=300.0)
     assert whole["status"] == "optimal"
     assert whole["total"] == pytest.approx(sol.total, abs=1e-9)
+
+
+def test_past_the_size_limit_the_staged_run_times_the_bounded_search(small_folder: Path, monkeypatch) -> None:
+    """The staged route goes on through run_bounded, as design.run does, and reaches the whole table's total.
+
+    The bench spec has 260 stage configurations on the small size; a limit
+    of 100 sends it past the size limit. The exhaustive baseline agrees on
+    the bounded table's Problem too.
+    """
+    from bench import bench_design
+    from partpick.evaluate import stage
+
+    spec = load_spec(DEFAULT_SPEC)
+    whole = staged_run(spec, small_folder)
+    assert len(whole.result.stage.configs) > 100 and "bounded search" not in whole.seconds
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 100)
+    bounded = staged_run(spec, small_folder)
+    assert bounded.result.stage.cost_bound is not None and bounded.result.status == "ok"
+    assert bounded.seconds["bounded search"] > 0 and bounded.report is not None
+    assert bounded.result.solution.total == pytest.approx(whole.result.solution.total, abs=1e-9)
+    problem = bounded.result.assembly.problem
+    ex = exhaustive_optimum(problem, time_limit_s=300.0)
+    assert ex.total == pytest.approx(bounded.result.solution.total, abs=agreement_tolerance(problem, bounded.result.solution))
+    table = bench_design.table(dict(
+        size="small", rows={f: 0 for f in ("transistors.csv", "opamps.csv", "heatsinks.csv", "regulators.csv", "passives.csv", "suppliers.csv", "offers.csv")},
+        median={**bounded.seconds, "total": 1.0}, bias_feed="auto", groups={}, lines=0, solver="cbc", repeat=1,
+        rss_self_mib=0.0, rss_children_mib=0.0, totals=[ex.total], tolerance=1e-6, status="ok",
+        exhaustive=dict(skipped="skipped"), unpruned=dict(skipped="skipped"),
+    ))
+    assert re.search(r"^   assemble +-$", table, re.M) and re.search(r"^   bounded search +\d", table, re.M)
