@@ -465,5 +465,7 @@ def _feed_found(result: DesignResult, other: str, alt, time_limit: float | None)
         best = f"cheapest (found within {time_limit:g} s, not proven optimal)"
     else:
         best = "cheapest found (not proven optimal)"
+    # Cheaper happens in a re-design (fewest changes come first) or when the spec fixes the feed.
+    than = f"{extra:+.2f} {result.pool.currency} more" if extra >= 0 else f"{-extra:.2f} {result.pool.currency} less"
     return {"feed": other, "feasible": True, "total": round(alt.total, 2), "extra_cost": round(extra, 2),
-            "reason": f"the {best} {other.replace('_', ' ')} design costs {extra:+.2f} {result.pool.currency} more"}
+            "reason": f"the {best} {other.replace('_', ' ')} design costs {than}"}

@@ -53,3 +53,16 @@ def test_forcing_leaves_the_design_problem_as_it_was(catalog) -> None:
     totals = [_forced_total(best, "output_npn", m, "cbc") for m in npn]
     assert any(t is not None for t in totals)
     assert problem.couplings == couplings and problem.forced == forced
+
+
+@pytest.mark.parametrize("alt_total, words", [(130.0, "costs +30.00 EUR more"), (75.5, "costs 24.50 EUR less")])
+def test_the_feed_comparison_says_more_or_less(alt_total, words) -> None:
+    """The other feed's design dearer or cheaper (a re-design puts fewest changes first) reads as such, never "-X more"."""
+    from types import SimpleNamespace
+
+    from partpick.optimize.explain import _feed_found
+
+    result = SimpleNamespace(solution=SimpleNamespace(total=100.0), pool=SimpleNamespace(currency="EUR"))
+    answer = _feed_found(result, "current_source", SimpleNamespace(total=alt_total, status="optimal"), None)
+    assert answer["reason"] == f"the best current source design {words}"
+    assert answer["extra_cost"] == pytest.approx(alt_total - 100.0)
