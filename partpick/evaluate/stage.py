@@ -242,9 +242,16 @@ class FeeFloors:
             return np.maximum(self.core, max(self.transistor_fee[npn_i], self.transistor_fee[pnp_i], self.diode_fee[d_i]))
         sets = self.sets
         req = ((sets & self.transistor_mask[npn_i]) != 0) & ((sets & self.transistor_mask[pnp_i]) != 0) & ((sets & self.diode_mask[d_i]) != 0)
-        hit = self.ok & req[None, :]
-        first = np.where(hit.any(axis=1), self.fee[hit.argmax(axis=1)], np.inf) if hit.size else np.full(len(hit), np.inf)
-        return np.where(self.key >= 0, first[np.maximum(self.key, 0)], np.inf) if len(first) else np.full(len(self.key), np.inf)
+        return first_fee(self.ok & req[None, :], self.fee, self.key)
+
+
+def first_fee(ok: np.ndarray, fee: np.ndarray, key: np.ndarray) -> np.ndarray:
+    """Per option: the fee of the first supplier set its ``key``'s row of ``ok`` holds (sets in ascending ``fee`` order).
+
+    inf where the row holds none, or the key is -1.
+    """
+    first = np.where(ok.any(axis=1), fee[ok.argmax(axis=1)], np.inf) if ok.size else np.full(len(ok), np.inf)
+    return np.where(key >= 0, first[np.maximum(key, 0)], np.inf) if len(first) else np.full(len(key), np.inf)
 
 
 @dataclass
@@ -898,14 +905,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     usable offer, so no threshold builds it).
     """
     small, refs = _ccs_candidates(pool)
-    rail_min = core["rail_min_v"].to_numpy(float)
-    rail_max = core["rail_max_v"].to_numpy(float)
-    base_pk = core["base_peak_v"].to_numpy(float)
-    i_need = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
-    fixed = spec.stage.bias_source_current_a
-    i_req = np.full(len(core), fixed) if fixed is not None else np.maximum(i_need, CCS_MIN_CURRENT_A)
-    compliance = swing.ccs_compliance_margin_v(rail_min, base_pk) >= 0
-    span = core["span_max_v"].to_numpy(float)
+    rail_min, rail_max, i_need, i_req, compliance, span = _ccs_needs(spec, core)
     core_cols = _stage_columns(core)
     amb = spec.thermal.ambient_c
     low = _LowHeat.of(spec, core, sink, core_cols) if bound is not None and bound.refined else None
@@ -915,7 +915,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     for s in small.itertuples(index=False):
         dev = _ccs_device(s, spec, rail_max)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
-        mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
+        mounts = _source_mounts(s.package)
         vbe_req = dev["vbe"](i_req)
         low_sink = (bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev))
                     if low is not None and "heatsink" in mounts else None)
@@ -1064,13 +1064,7 @@ def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores
     if core is None or spec.stage.bias_feed == "resistor":
         return np.zeros(0)
     small, refs = _ccs_candidates(pool)
-    rail_min = core["rail_min_v"].to_numpy(float)
-    rail_max = core["rail_max_v"].to_numpy(float)
-    i_need = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
-    fixed = spec.stage.bias_source_current_a
-    i_req = np.full(len(core), fixed) if fixed is not None else np.maximum(i_need, CCS_MIN_CURRENT_A)
-    compliance = swing.ccs_compliance_margin_v(rail_min, core["base_peak_v"].to_numpy(float)) >= 0
-    span = core["span_max_v"].to_numpy(float)
+    _rail_min, rail_max, i_need, i_req, compliance, span = _ccs_needs(spec, core)
     low = _LowHeat.of(spec, core, sink) if bound.refined else None
     out: list[np.ndarray] = []
     for s in small.itertuples(index=False):
@@ -1078,7 +1072,7 @@ def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores
         base = compliance & (soa.vceo_margin_v(dev["vceo_v"], span) >= 0)
         if not base.any():
             continue
-        mounts = ("free_air", "heatsink") if s.package in RTH_CS_INSULATED_K_W else ("free_air",)
+        mounts = _source_mounts(s.package)
         vbe_req = dev["vbe"](i_req)
         sink_cost = bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev)) if low is not None and "heatsink" in mounts else None
         free_ok = _ccs_thermal_ok(dev, "free_air", rail_max, i_need, spec.thermal.ambient_c) if "free_air" in mounts else None
@@ -1089,6 +1083,28 @@ def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores
                 lb = bound.row_bound(s, d_i, per, targets.channels, sink_cost if mount == "heatsink" else None)[ok]
                 out.append(lb[np.isfinite(lb)])
     return np.sort(np.concatenate(out)) if out else np.zeros(0)
+
+
+def _ccs_needs(spec: Spec, core: pd.DataFrame) -> tuple[np.ndarray, ...]:
+    """Per core configuration, what its current sources must meet.
+
+    ``(rail_min, rail_max, i_need, i_req, compliance, span)``: the rails
+    [V]; the least current that drives the base at its peak and the current
+    the sources are designed for (the spec's, or at least
+    :data:`CCS_MIN_CURRENT_A`) [A]; whether the rail leaves the compliance
+    (model s.3 (a')); the span the source transistors' Vceo must stand [V].
+    """
+    rail_min = core["rail_min_v"].to_numpy(float)
+    i_need = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
+    fixed = spec.stage.bias_source_current_a
+    i_req = np.full(len(core), fixed) if fixed is not None else np.maximum(i_need, CCS_MIN_CURRENT_A)
+    compliance = swing.ccs_compliance_margin_v(rail_min, core["base_peak_v"].to_numpy(float)) >= 0
+    return rail_min, core["rail_max_v"].to_numpy(float), i_need, i_req, compliance, core["span_max_v"].to_numpy(float)
+
+
+def _source_mounts(package: str) -> tuple[str, ...]:
+    """Where a current-source pair of ``package`` can sit: in free air, and on the heatsink when the package mounts insulated."""
+    return ("free_air", "heatsink") if package in RTH_CS_INSULATED_K_W else ("free_air",)
 
 
 def _ccs_candidates(pool: Pool) -> tuple[pd.DataFrame, list[tuple[int, int, float, float]]]:

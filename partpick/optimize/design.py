@@ -510,18 +510,24 @@ def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, forb
     one are left out before the bounds, and their prices are ``inf`` (as if
     the parts were not in the catalogue).
     """
-    from partpick.optimize.prune import _all_needs, fee_floors, lower_bounds, restrict
+    from partpick.optimize.buying import least_unit_price
+    from partpick.optimize.problem import _offers
+    from partpick.optimize.prune import _all_needs, lower_bounds, restrict
 
     relaxed = evaluate_stage(spec, pool, targets, relaxed=True, cores=cores)
     if len(relaxed.configs) > RELAXED_ROWS_MAX:
         return None
     rasm = assemble(spec, pool, targets, relaxed, heatsinks=False)
     n = 0 if cores.core is None else len(cores.core)
-    core_parts, core_fee = np.full(n, np.inf), np.full(n, np.inf)
-    transistor_price, diode_price = _feed_prices(pool)
+    core_parts = np.full(n, np.inf)
+    tr, di = pool.transistors["mpn"].tolist(), pool.diodes["mpn"].tolist()
+    offers = _offers(pool, {m: (m, None) for m in set(tr) | set(di)})
+    t_offers, d_offers = [offers[m] for m in tr], [offers[m] for m in di]
+    transistor_price = np.array([least_unit_price(o) for o in t_offers], dtype=float)
+    diode_price = np.array([least_unit_price(o) for o in d_offers], dtype=float)
     transistor_price[pool.transistors["mpn"].isin(forbidden).to_numpy()] = np.inf
     diode_price[pool.diodes["mpn"].isin(forbidden).to_numpy()] = np.inf
-    fees = None
+    fees = stage_rules.FeeFloors(np.full(n, np.inf), np.full(len(tr), np.inf), np.full(len(di), np.inf))
     if rasm is not None and rasm.problem is not None:
         problem = rasm.problem
         keep = {g: np.flatnonzero(~bad) for g, bad in _using(rasm, forbidden).items()}
@@ -530,33 +536,35 @@ def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, forb
             needs = _all_needs(sub)
             at = relaxed.configs["core_i"].to_numpy(int)[keep["stage"]]
             core_parts[at] = lower_bounds(sub, needs)["stage"]
-            core_fee[at] = fee_floors(sub, needs)["stage"]
-            fees = _fee_floors(pool, sub, needs, at, core_fee)
-    if fees is None:
-        fees = stage_rules.FeeFloors(core_fee, np.full(len(pool.transistors), np.inf), np.full(len(pool.diodes), np.inf))
+            fees = _fee_floors(sub, needs, at, n, t_offers, d_offers)
+    core_fee = fees.core
     sinks = _sink_costs(spec, pool, targets, cores, (rasm.tables.get("heatsink") if rasm is not None else None), forbidden)
     core_sink = sinks.own(cores.rth_max) if n else np.zeros(0)
     return FeedBound(core_parts + core_fee + core_sink, math.inf, transistor_price, diode_price, spec.order.factor,
                      core_parts=core_parts, core_sink=core_sink, sinks=sinks, fees=fees)
 
 
-def _fee_floors(pool: Pool, problem, needs: dict, at: np.ndarray, core_fee: np.ndarray) -> stage_rules.FeeFloors:
-    """The :class:`~partpick.evaluate.stage.FeeFloors` of the relaxed ``problem``'s stage options (core configurations ``at``)."""
-    from partpick.optimize.problem import _offers
-    from partpick.optimize.prune import cheapest_fee, fee_sets, seller_masks
+def _fee_floors(problem, needs: dict, at: np.ndarray, n: int, t_offers: list, d_offers: list) -> stage_rules.FeeFloors:
+    """The :class:`~partpick.evaluate.stage.FeeFloors` of the relaxed ``problem``'s stage options (core configurations ``at`` of ``n``).
 
-    tr, di = pool.transistors["mpn"].tolist(), pool.diodes["mpn"].tolist()
-    offers = _offers(pool, {m: (m, None) for m in set(tr) | set(di)})
-    t_offers, d_offers = [offers[m] for m in tr], [offers[m] for m in di]
-    out = stage_rules.FeeFloors(core_fee, cheapest_fee(problem, t_offers), cheapest_fee(problem, d_offers))
+    ``t_offers``, ``d_offers``: the offers of each pool transistor and diode.
+    The cores' own floors are :func:`~partpick.optimize.prune.fee_floors`',
+    taken from the same supplier sets when there are few suppliers.
+    """
+    from partpick.optimize.prune import cheapest_fee, fee_floors, fee_sets, seller_masks
+
+    core_fee = np.full(n, np.inf)
     found = fee_sets(problem, "stage", needs)
-    if found is not None:
-        suppliers, sets, fee, ok, key = found
-        core_key = np.full(len(core_fee), -1, dtype=np.int64)
-        core_key[at] = key
-        out = replace(out, key=core_key, ok=ok, fee=fee, sets=sets,
-                      transistor_mask=seller_masks(t_offers, suppliers), diode_mask=seller_masks(d_offers, suppliers))
-    return out
+    if found is None:
+        core_fee[at] = fee_floors(problem, needs)["stage"]
+        return stage_rules.FeeFloors(core_fee, cheapest_fee(problem, t_offers), cheapest_fee(problem, d_offers))
+    suppliers, sets, fee, ok, key = found
+    core_key = np.full(n, -1, dtype=np.int64)
+    core_key[at] = key
+    core_fee[at] = stage_rules.first_fee(ok, fee, key)
+    return stage_rules.FeeFloors(core_fee, cheapest_fee(problem, t_offers), cheapest_fee(problem, d_offers), key=core_key, ok=ok,
+                                 fee=fee, sets=sets, transistor_mask=seller_masks(t_offers, suppliers),
+                                 diode_mask=seller_masks(d_offers, suppliers))
 
 
 def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs, forbidden: tuple[str, ...]) -> stage_rules.SinkCosts:
@@ -586,13 +594,6 @@ def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs,
         core_package = np.zeros(0, np.int64)
     return stage_rules.SinkCosts(hs["rth_sa_k_w"].to_numpy(float), class_i, holds, hs["max_devices"].to_numpy(int), cost, code,
                                  core_package, 0 if sink is None else sink.n_dev, 0 if sink is None else sink.channels)
-
-
-def _feed_prices(pool: Pool) -> tuple[np.ndarray, np.ndarray]:
-    """Least unit price of every transistor and diode of the pool (``inf``: no supplier can sell it)."""
-    from partpick.optimize.problem import price_floor
-
-    return price_floor(pool, pool.transistors["mpn"]), price_floor(pool, pool.diodes["mpn"])
 
 
 def forbid_parts(asm: Assembly, sources: tuple[str, ...]) -> None:

@@ -36,7 +36,7 @@ import numpy as np
 import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
-from partpick.optimize.buying import cheapest_purchase, smallest_qty, useful_breaks
+from partpick.optimize.buying import cheapest_purchase, smallest_qty, usable, useful_breaks
 from partpick.spec import order_units
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
@@ -730,7 +730,7 @@ def _with_suppliers(problem: Problem, tie: dict[str, np.ndarray], solver: str, a
 
     offers = {line: [o for o in offers if o.supplier in allowed] for line, offers in problem.line_offers.items()}
     narrow = replace(problem, line_offers=offers, fees={s: f for s, f in problem.fees.items() if s in allowed})
-    sells = {line: any(smallest_qty(o) <= o.stock for o in offs) for line, offs in offers.items()}
+    sells = {line: bool(usable(offs)) for line, offs in offers.items()}
     keep = {g: np.array([o for o, use in enumerate(grp.usage) if all(sells.get(line, False) for line, _q, _r in use)], dtype=np.int64)
             for g, grp in problem.groups.items()}
     if not all(len(k) for k in keep.values()) or any(f not in set(keep[g].tolist()) for g, f in problem.forced.items()):

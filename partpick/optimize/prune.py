@@ -383,29 +383,16 @@ def fee_floors(problem: Problem, needs: dict | None = None) -> dict[str, np.ndar
     line. ``inf`` marks options whose lines no supplier set can sell.
     ``needs``: :func:`_all_needs` of ``problem`` when the caller has it.
     """
-    suppliers = sorted(problem.fees)
-    if len(suppliers) > FEE_SUBSETS_MAX_SUPPLIERS:
-        return _fee_floors_one_seller(problem)
-    code = {s: i for i, s in enumerate(suppliers)}
-    sets = np.arange(1 << len(suppliers), dtype=np.int64)
-    fee = _set_fees(problem, suppliers)
-    sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
     needs = needs if needs is not None else _all_needs(problem)
-    # Per group: the distinct seller-mask sets of its options, each option's one,
-    # and which supplier sets can sell each of them.
-    key_of: dict[str, np.ndarray] = {}
-    can: dict[str, np.ndarray] = {}
-    for g, grp in problem.groups.items():
-        masks, bits, key_of[g] = _seller_bits(len(grp), *needs[g][:3], sellers)
-        can[g] = _can_sell(masks, bits, sets)
+    tables = _fee_tables(problem, needs)
+    if tables is None:
+        return _fee_floors_one_seller(problem)
+    _suppliers, sets, fee, can, key_of = tables
     some = {g: c.any(axis=0) for g, c in can.items()}
     out = {}
     for g in problem.groups:
-        others = np.ones(len(sets), dtype=bool)
-        for h, ok in some.items():
-            if h != g:
-                others &= ok
-        per_key = np.where(can[g] & others, fee, np.inf).min(axis=1) if can[g].size else np.full(len(can[g]), np.inf)
+        ok = can[g] & _others(some, g, len(sets))
+        per_key = np.where(ok, fee, np.inf).min(axis=1) if can[g].size else np.full(len(can[g]), np.inf)
         out[g] = per_key[key_of[g]] if len(per_key) else np.zeros(0)
     return out
 
@@ -416,29 +403,50 @@ def fee_sets(problem: Problem, g: str, needs: dict | None = None, max_cells: int
     Returns ``(suppliers, sets, fee, ok, key)``: the supplier sets (bit masks
     over ``suppliers``) in ascending fee order, their fees, ``ok[key, set]``
     (the set sells every line of an option with that key and some option of
-    every other group) and each option's key. None when :func:`fee_floors`
-    would fall back to one seller (too many suppliers), or when ``ok`` would
-    hold more than ``max_cells`` cells.
+    every other group) and each option's key. The least fee of an option is
+    that of its key's first set in ``ok``: its :func:`fee_floors`. None when
+    :func:`fee_floors` would fall back to one seller (too many suppliers),
+    or when ``ok`` would hold more than ``max_cells`` cells.
+    """
+    needs = needs if needs is not None else _all_needs(problem)
+    tables = _fee_tables(problem, needs)
+    if tables is None or tables[3][g].size > max_cells:
+        return None
+    suppliers, sets, fee, can, key_of = tables
+    order = np.argsort(fee, kind="stable")
+    others = _others({h: c.any(axis=0) for h, c in can.items() if h != g}, g, len(sets))
+    return suppliers, sets[order], fee[order], (can[g] & others)[:, order], key_of[g]
+
+
+def _fee_tables(problem: Problem, needs: dict):
+    """What :func:`fee_floors` and :func:`fee_sets` start from; None past :data:`FEE_SUBSETS_MAX_SUPPLIERS` suppliers.
+
+    ``(suppliers, sets, fee, can, key_of)``: every supplier set (bit i:
+    ``suppliers[i]``) and its fees, and per group the distinct seller-mask
+    sets of its options (each option's one in ``key_of[g]``) with
+    ``can[g][key, set]``, whether the set can sell all of them.
     """
     suppliers = sorted(problem.fees)
     if len(suppliers) > FEE_SUBSETS_MAX_SUPPLIERS:
         return None
     code = {s: i for i, s in enumerate(suppliers)}
     sets = np.arange(1 << len(suppliers), dtype=np.int64)
-    fee = _set_fees(problem, suppliers)
     sellers = {line: _mask(offers, code) for line, offers in problem.line_offers.items()}
-    needs = needs if needs is not None else _all_needs(problem)
-    others = np.ones(len(sets), dtype=bool)
-    for h, grp in problem.groups.items():
-        masks, bits, key_of = _seller_bits(len(grp), *needs[h][:3], sellers)
-        if h == g:
-            if len(bits) * len(sets) > max_cells:
-                return None
-            ok, key = _can_sell(masks, bits, sets), key_of
-        else:
-            others &= _can_sell(masks, bits, sets).any(axis=0)
-    order = np.argsort(fee, kind="stable")
-    return suppliers, sets[order], fee[order], (ok & others)[:, order], key
+    can: dict[str, np.ndarray] = {}
+    key_of: dict[str, np.ndarray] = {}
+    for g, grp in problem.groups.items():
+        masks, bits, key_of[g] = _seller_bits(len(grp), *needs[g][:3], sellers)
+        can[g] = _can_sell(masks, bits, sets)
+    return suppliers, sets, _set_fees(problem, suppliers), can, key_of
+
+
+def _others(some: dict[str, np.ndarray], g: str, n_sets: int) -> np.ndarray:
+    """Per supplier set: whether it can sell some option of every group but ``g`` (``some[h]``: of group ``h``)."""
+    out = np.ones(n_sets, dtype=bool)
+    for h, ok in some.items():
+        if h != g:
+            out &= ok
+    return out
 
 
 def seller_masks(offers_of: list[list], suppliers: list[str]) -> np.ndarray:
