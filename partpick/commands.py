@@ -61,8 +61,11 @@ def run_design(args: argparse.Namespace, term: Terminal) -> int:
                             time_limit=limit, by_changes=not getattr(args, "risk", False))
         result = revision.result
     else:
+        # Ranked alternatives and the stock risk re-solve the table the design came from:
+        # the whole table when it fits, not one built by cost bound (design.CHOICE_ROWS).
+        whole = getattr(args, "risk", False) or (args.alternatives or 0) > 1
         result = run(spec, catalog, exclude=tuple(args.exclude), objective=args.objective, solver=args.solver,
-                     spec_label=args.spec, time_limit=limit)
+                     spec_label=args.spec, time_limit=limit, whole=whole)
     if not result.feasible:
         from partpick.optimize.explain import suggestions
 

@@ -1055,18 +1055,41 @@ def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores
     """The bounds of the current-source rows ``bound`` could build, ascending: to choose thresholds by table size.
 
     A row counts when its pair, reference and mounting pass their own checks
-    at the least current that can feed its core (compliance, Vceo, the
-    reference's room, the free-air junction and SOA); the resistor
-    families' checks are left out. So the count under a threshold is at
-    least the number of current-source rows a table at that threshold has.
+    at the least current that can feed its core (:func:`_candidate_rows`);
+    the resistor families' checks are left out. So the count under a
+    threshold is at least the number of current-source rows a table at that
+    threshold has.
     """
     core, sink = cores.core, cores.sink
+    low = _LowHeat.of(spec, core, sink) if core is not None and bound.refined else None
+    out: list[np.ndarray] = []
+    sink_cost, last = None, None
+    for s, dev, d_i, per, mount, ok in _candidate_rows(spec, pool, cores):
+        if mount == "heatsink" and low is not None and last is not s:
+            sink_cost, last = bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev)), s
+        lb = bound.row_bound(s, d_i, per, targets.channels, sink_cost if mount == "heatsink" and low is not None else None)[ok]
+        out.append(lb[np.isfinite(lb)])
+    return np.sort(np.concatenate(out)) if out else np.zeros(0)
+
+
+def candidate_rows(spec: Spec, pool: Pool, cores: StageCores) -> int:
+    """How many current-source rows the whole stage table can have at most (:func:`_candidate_rows`, no cost bounds): cheap to count."""
+    return int(sum(int(ok.sum()) for *_rest, ok in _candidate_rows(spec, pool, cores)))
+
+
+def _candidate_rows(spec: Spec, pool: Pool, cores: StageCores):
+    """Per current-source pair, reference and mounting: ``(pair row, device, reference row, per source, mounting, core mask)``.
+
+    The mask holds the core configurations the three pass their own checks
+    with, at the least current that can feed each core (compliance, Vceo,
+    the reference's room, the free-air junction and SOA); a table's rows of
+    that pair, reference and mounting lie among them.
+    """
+    core = cores.core
     if core is None or spec.stage.bias_feed == "resistor":
-        return np.zeros(0)
+        return
     small, refs = _ccs_candidates(pool)
     _rail_min, rail_max, i_need, i_req, compliance, span = _ccs_needs(spec, core)
-    low = _LowHeat.of(spec, core, sink) if bound.refined else None
-    out: list[np.ndarray] = []
     for s in small.itertuples(index=False):
         dev = _ccs_device(s, spec, rail_max)
         base = compliance & (soa.vceo_margin_v(dev["vceo_v"], span) >= 0)
@@ -1074,15 +1097,11 @@ def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores
             continue
         mounts = _source_mounts(s.package)
         vbe_req = dev["vbe"](i_req)
-        sink_cost = bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev)) if low is not None and "heatsink" in mounts else None
         free_ok = _ccs_thermal_ok(dev, "free_air", rail_max, i_need, spec.thermal.ambient_c) if "free_air" in mounts else None
         for d_i, per, vref, _if_max in refs:
             room = base & (vref - vbe_req >= CCS_MIN_RE_DROP_V)
             for mount in mounts:
-                ok = room & free_ok if mount == "free_air" else room
-                lb = bound.row_bound(s, d_i, per, targets.channels, sink_cost if mount == "heatsink" else None)[ok]
-                out.append(lb[np.isfinite(lb)])
-    return np.sort(np.concatenate(out)) if out else np.zeros(0)
+                yield s, dev, d_i, per, mount, (room & free_ok if mount == "free_air" else room)
 
 
 def _ccs_needs(spec: Spec, core: pd.DataFrame) -> tuple[np.ndarray, ...]:

@@ -202,7 +202,7 @@ def why(spec: Spec, catalog: Catalog, mpn: str, exclude: tuple[str, ...] = (), s
         from partpick.errors import InputError, Problem
 
         raise InputError([Problem("command line", 0, "MPN", f"'{mpn}' is not a part or family of the catalogue")])
-    best = run(spec, catalog, exclude=exclude, solver=solver)
+    best = run(spec, catalog, exclude=exclude, solver=solver, whole=True)
     if mpn in best.pool.left_out:
         return WhyAnswer(mpn, roles[0], False, f"left out before any check: {best.pool.left_out[mpn]}")
     if best.feasible and best.assembly is not None:
@@ -338,7 +338,7 @@ def alternatives(spec: Spec, catalog: Catalog, n: int, exclude: tuple[str, ...] 
     from partpick.errors import SolverTimeout
 
     if first is None:
-        first = run(spec, catalog, exclude=exclude, solver=solver, time_limit=time_limit)
+        first = run(spec, catalog, exclude=exclude, solver=solver, time_limit=time_limit, whole=True)
     out = [first] if first.feasible else []
     if not out:
         return out
@@ -387,7 +387,6 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
         return None
     from partpick.errors import SolverTimeout
     from partpick.evaluate.stage import feed_failure
-    from partpick.optimize.milp import Coupling, rules_kept, solve
 
     chosen = result.check.design["bias_feed"]
     other = "resistor" if chosen == "current_source" else "current_source"
@@ -397,12 +396,19 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     by_changes = result.stage.change_bound is not None and other == "current_source" and result.stage.cut_cores > 0
     if result.stage.cost_bound is not None and other == "current_source":
         # The design's table holds only the current-source configurations under
-        # its cost bound (design.run_bounded): design that feed on its own, bounded
-        # again (its table is most of the one that passed the limit).
-        from partpick.optimize.design import run_bounded
+        # its cost bound (design.run_bounded): its own best with that feed, when
+        # it proves to be the catalogue's; otherwise that feed designed on its
+        # own (past the size limit bounded again, its table most of the one that
+        # passed the limit; within it as design.run chooses).
+        from partpick.optimize.design import BoundedSearch, run, run_bounded
 
         try:
-            alone = run_bounded(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver, time_limit=time_limit)
+            alt = _held_to(result, other, mask, solver, time_limit) if mask.any() else None
+            if alt is not None and alt.status != "infeasible" and proven_whole(result, alt):
+                return _feed_found(result, other, alt, time_limit)
+            fits = isinstance(result.search, BoundedSearch) and result.search.fits
+            again = run if fits else run_bounded
+            alone = again(_with(result.spec, "stage", bias_feed=other), catalog, exclude=exclude, solver=solver, time_limit=time_limit)
         except (SolverTimeout, SizeLimitError):
             return None
         if alone.feasible:
@@ -411,12 +417,10 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     elif mask.any() or by_changes:
         alt = None
         if mask.any():
-            with rules_kept(result.assembly.problem) as problem:
-                problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
-                try:
-                    alt = solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
-                except SolverTimeout:
-                    return None
+            try:
+                alt = _held_to(result, other, mask, solver, time_limit)
+            except SolverTimeout:
+                return None
         if by_changes and not (alt is not None and alt.status != "infeasible" and proven_whole(result, alt)):
             return _feed_redesigned(result, other, alt, solver, time_limit)
         if alt.status != "infeasible":
@@ -425,6 +429,15 @@ def compare_feeds(result: DesignResult, catalog: Catalog, exclude: tuple[str, ..
     else:
         reason = feed_failure(result.stage, k.iloc[result.solution.choice["stage"]], other)
     return _feed_missing(other, reason)
+
+
+def _held_to(result: DesignResult, other: str, mask: np.ndarray, solver: str, time_limit: float | None):
+    """``result``'s own problem solved again with the stage held to the ``other`` feed's configurations (``mask``)."""
+    from partpick.optimize.milp import Coupling, rules_kept, solve
+
+    with rules_kept(result.assembly.problem) as problem:
+        problem.couplings.append(Coupling(f"bias feed {other}", {"stage": mask}, ">=", 1.0))
+        return solve(problem, solver=solver, time_limit=time_limit, bounds=result.solution.bounds)
 
 
 def _feed_redesigned(result: DesignResult, other: str, alt, solver: str, time_limit: float | None) -> dict | None:

@@ -22,13 +22,18 @@ median over ``--repeat`` runs:
 - ``check``: :func:`partpick.optimize.design.check_chosen`;
 - ``report``: :func:`partpick.report.build.build_report`.
 
-When the whole stage table is past partpick's size limit (``evaluate`` then
-times the attempt that meets it), the run goes on as ``partpick design``
-does, through :func:`partpick.optimize.design.run_bounded`, timed as one
-stage ``bounded search`` (its tables, MILPs and check; ``solve`` is the time
-inside the solver, and the stages it replaces print as ``-``). Its
-``--solve-limit`` is run_bounded's time limit; the baselines then run on its
-last table's Problem.
+When ``partpick design`` builds the stage table by cost bound, the staged
+run does too, and times the rounds (their tables, MILPs and check) as one
+stage ``bounded search`` (``solve`` is the time inside the solver, and the
+stages it replaces print as ``-``); ``--solve-limit`` is their time limit.
+That is the route by choice (:data:`partpick.optimize.design.CHOICE_ROWS`:
+``evaluate`` then times the pool, the core configurations, the count of
+current-source rows and their bounds), and the route past partpick's size
+limit (``evaluate`` times the attempt that meets it, then
+:func:`partpick.optimize.design.run_bounded`). The baselines run on the whole
+table's Problem, built apart and untimed, when it fits; otherwise on the
+last bounded table's. Their ratios then set the unpruned MILP against the
+whole ``bounded search`` (tables included).
 
 Peak memory is ``resource.getrusage(...).ru_maxrss`` of the worker (the Python
 side) and of its children (the solver processes), read after the partpick
@@ -92,7 +97,7 @@ from partpick.catalog.loader import Catalog, load_catalog  # noqa: E402
 from partpick.evaluate.context import Targets, make_pool  # noqa: E402
 from partpick.evaluate.stage import evaluate_stage  # noqa: E402
 from partpick.optimize import milp  # noqa: E402
-from partpick.optimize.design import DesignResult, check_chosen, run_bounded  # noqa: E402
+from partpick.optimize.design import BoundedSearch, DesignResult, _bounded_rounds, _by_choice, check_chosen, prepare, run_bounded  # noqa: E402
 from partpick.optimize.milp import Offer, Problem, ceil_units  # noqa: E402
 from partpick.errors import SizeLimitError, SolverError, UsageError  # noqa: E402
 from partpick.optimize.problem import assemble  # noqa: E402
@@ -173,6 +178,11 @@ def staged_run(spec: Spec, folder: Path, solver: str = "cbc", time_limit: float 
 
     t = time.perf_counter()
     REACHED[0] = "evaluate"
+    if spec.order.objective == "cost":
+        chosen = _by_choice(spec, catalog, (), "spec", time_limit)
+        if chosen is not None:
+            s["evaluate"] = time.perf_counter() - t
+            return _bounded_run(spec, catalog, s, None, solver, time_limit, chosen)
     pool = make_pool(spec, catalog)
     targets = Targets.from_spec(spec)
     try:
@@ -218,19 +228,24 @@ def staged_run(spec: Spec, folder: Path, solver: str = "cbc", time_limit: float 
     return StagedRun(s, result, report, catalog)
 
 
-def _bounded_run(spec: Spec, catalog: Catalog, s: dict[str, float], too_large: SizeLimitError, solver: str,
-                 time_limit: float | None) -> StagedRun:
-    """What :func:`partpick.optimize.design.run` does past the size limit: :func:`run_bounded`, timed as one stage.
+def _bounded_run(spec: Spec, catalog: Catalog, s: dict[str, float], too_large: SizeLimitError | None, solver: str,
+                 time_limit: float | None, chosen: tuple | None = None) -> StagedRun:
+    """What :func:`partpick.optimize.design.run` does by cost bound, timed as one stage.
 
-    ``bounded search`` holds its relaxed table, bounds, tables, MILPs and
-    check (``solve`` the time inside the solver); the whole-table stages it
-    replaces are NaN.
+    ``chosen``: the route by choice's (spec, pool, targets, search), whose
+    rounds (:func:`~partpick.optimize.design._bounded_rounds`) ``bounded
+    search`` times; otherwise :func:`run_bounded` past the size limit, its
+    relaxed table and bounds included. ``solve`` is the time inside the
+    solver; the whole-table stages it replaces are NaN.
     """
     inside = [0.0]
     t = time.perf_counter()
     REACHED[0] = "bounded search"
     with solver_clock(inside):
-        result = run_bounded(spec, catalog, solver=solver, time_limit=time_limit, too_large=too_large)
+        if chosen is not None:
+            result = _bounded_rounds(*chosen, solver=solver, time_limit=time_limit)
+        else:
+            result = run_bounded(spec, catalog, solver=solver, time_limit=time_limit, too_large=too_large)
     s["bounded search"] = time.perf_counter() - t
     s["solve"] = inside[0]
     for k in ("assemble", "build", "build+solve", "check"):
@@ -544,13 +559,16 @@ def measure_size(size: str, spec_path: Path, repeat: int, seed: int, solver: str
     rss_children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0
     last = runs[-1]
     problem = last.result.assembly.problem
+    built = len(last.result.stage.configs)  # the stage configurations of partpick's (last) table
+    if isinstance(last.result.search, BoundedSearch) and last.result.search.fits:
+        problem = prepare(spec, load_catalog(folder)).assembly.problem  # the baselines' Problem: the whole table
     out = dict(
         size=size, folder=str(folder), repeat=repeat, solver=solver, bias_feed=spec.stage.bias_feed,
         rows=json.loads((folder / ".complete").read_text()),
         median={k: statistics.median(r.seconds[k] for r in runs) for k in STAGES + ("bounded search",) if k in runs[-1].seconds},
         totals=[r.result.solution.total for r in runs],
         status=last.result.status,
-        groups={g: len(grp) for g, grp in problem.groups.items()},
+        groups={g: len(grp) for g, grp in problem.groups.items()}, built=built,
         lines=len(problem.line_offers),
         rss_self_mib=rss_self, rss_children_mib=rss_children,
         tolerance=agreement_tolerance(problem, last.result.solution),
@@ -589,6 +607,8 @@ def table(m: dict) -> str:
         f"{rows['heatsinks.csv']} heatsinks, {rows['regulators.csv']} regulators, {rows['passives.csv']} passive families, "
         f"{rows['suppliers.csv']} suppliers, {rows['offers.csv']} offer rows",
         f"   bias feed {m['bias_feed']}; MILP groups: {m['groups']}; {m['lines']} BOM lines; solver {m['solver']}; median of {m['repeat']} runs",
+        *([f"   partpick built {m['built']:,} of the {m['groups']['stage']:,} stage configurations (by cost bound)"]
+          if m.get("built", m["groups"].get("stage")) != m["groups"].get("stage") else []),
         f"   {'stage':<13}{'median [s]':>12}",
     ]
     for k in (*STAGES, "bounded search", "total"):
@@ -604,8 +624,13 @@ def table(m: dict) -> str:
         route = med["load"] + med["evaluate"] + med["assemble"] + ex["seconds"]
         lines.append(f"   exhaustive    {ex['seconds']:>12.3f}  total {ex['total']:.4f} ({ex['combinations']:,} combinations, "
                      f"{ex['subsets']} supplier subsets priced; one run)")
-        lines.append(f"   ratio exhaustive / MILP build+solve (same Problem): {ex['seconds'] / med['build+solve']:.2f}; "
-                     f"whole route (load+evaluate+assemble+exhaustive) / partpick total: {route / med['total']:.2f}")
+        if math.isnan(med.get("build+solve", math.nan)):
+            # Built by cost bound: the whole table's evaluation and assembly were not timed.
+            lines.append(f"   ratio exhaustive / bounded search: {ex['seconds'] / med['bounded search']:.2f}; "
+                         f"exhaustive / partpick total: {ex['seconds'] / med['total']:.2f}")
+        else:
+            lines.append(f"   ratio exhaustive / MILP build+solve (same Problem): {ex['seconds'] / med['build+solve']:.2f}; "
+                         f"whole route (load+evaluate+assemble+exhaustive) / partpick total: {route / med['total']:.2f}")
     else:
         lines.append(f"   exhaustive    {ex['skipped']}")
     un = m["unpruned"]
@@ -613,8 +638,10 @@ def table(m: dict) -> str:
     if "skipped" in un:
         lines.append(f"   unpruned MILP {un['skipped']}")
     else:
+        ours, what = ((med["build+solve"], "pruned build+solve") if not math.isnan(med.get("build+solve", math.nan))
+                      else (med["bounded search"], "bounded search"))
         lines.append(f"   unpruned MILP {un['seconds']:>12.3f}  {un['status']}" + (f", total {un['total']:.4f}" if proven else "")
-                     + f"; ratio unpruned / pruned build+solve: {'' if proven else '>= '}{un['seconds'] / med['build+solve']:.2f}")
+                     + f"; ratio unpruned / {what}: {'' if proven else '>= '}{un['seconds'] / ours:.2f}")
     if proven:
         ok.append(abs(un["total"] - pp) <= m["tolerance"])
     lines.append(f"   totals: partpick {pp:.4f} (all runs {sorted(set(round(t, 6) for t in m['totals']))})"

@@ -1,0 +1,166 @@
+"""With many current-source rows, ``design.run`` builds the stage table by cost bound although the whole would fit.
+
+Checked against an independent route: the same spec designed from the whole
+table (``run(..., whole=True)``, every configuration built). The desk example
+at 1 W has 101,015 candidate current-source rows on the demo catalogue, past
+:data:`~partpick.optimize.design.CHOICE_ROWS`, and a whole table of 69,703
+rows; the other cases lower ``CHOICE_ROWS`` to take the route.
+"""
+
+from __future__ import annotations
+
+import pytest
+from conftest import DEMO_CATALOG, ROOT
+from optimize.test_bounded_feeds import _bench
+
+from partpick.catalog import load_catalog
+from partpick.evaluate import stage
+from partpick.evaluate.context import Targets, make_pool
+from partpick.optimize import design
+from partpick.optimize.design import BoundedSearch, design_without, option_sources, run
+from partpick.optimize.explain import _with, alternatives, compare_feeds
+from partpick.optimize.sweep import spec_at
+from partpick.spec import load_spec
+
+EXAMPLES = ROOT / "examples"
+
+
+@pytest.fixture(scope="module")
+def catalog():
+    return load_catalog(DEMO_CATALOG)
+
+
+def _desk(power: float):
+    return spec_at(load_spec(EXAMPLES / "desk_2ch_12v_single.toml"), "power", power)
+
+
+CASES = {
+    "desk 1 W auto": lambda: _desk(1.0),
+    "bench 20 W auto": lambda: _bench(20.0),
+    "bench 22 W current source": lambda: _bench(22.0, bias_feed="current_source"),
+    "module current source": lambda: _with(load_spec(EXAMPLES / "module_60w_4ohm_reactive.toml"), "stage", bias_feed="current_source"),
+}
+
+
+def _low_choice(monkeypatch) -> None:
+    monkeypatch.setattr(design, "CHOICE_ROWS", 1)
+
+
+def _built_by_choice(result) -> bool:
+    return isinstance(result.search, BoundedSearch) and result.search.fits and result.stage.cost_bound is not None
+
+
+@pytest.mark.parametrize("name", sorted(CASES) + ["desk 1.5 W auto"])
+def test_the_candidate_count_bounds_the_whole_tables_current_source_rows(name, catalog) -> None:
+    spec = CASES[name]() if name in CASES else _desk(1.5)
+    pool = make_pool(spec, catalog)
+    targets = Targets.from_spec(spec)
+    cores = stage.stage_cores(spec, pool, targets)
+    whole = stage.evaluate_stage(spec, pool, targets, cores=cores)
+    ccs = int((whole.configs["feed"] == "current_source").sum())
+    resistor = int((whole.configs["feed"] == "resistor").sum())
+    assert ccs > 0
+    assert ccs <= stage.candidate_rows(spec, pool, cores)
+    assert resistor <= len(cores.core)  # at most one resistor-fed row per core configuration
+    fixed = _with(spec, "stage", bias_feed="resistor")
+    assert stage.candidate_rows(fixed, make_pool(fixed, catalog), stage.stage_cores(fixed, pool, targets)) == 0
+
+
+@pytest.mark.parametrize("name", sorted(CASES))
+def test_the_route_by_choice_finds_the_whole_tables_optimum(name, catalog, monkeypatch) -> None:
+    spec = CASES[name]()
+    whole = run(spec, catalog, whole=True)
+    assert whole.status == "ok" and whole.stage.cost_bound is None
+    if name != "desk 1 W auto":
+        assert not _built_by_choice(run(spec, catalog))  # too few candidate rows at the shipped CHOICE_ROWS
+        _low_choice(monkeypatch)
+    chosen = run(spec, catalog)
+    assert chosen.status == "ok" and _built_by_choice(chosen)
+    assert len(chosen.stage.configs) < len(whole.stage.configs)
+    assert chosen.solution.total == pytest.approx(whole.solution.total, abs=1e-6)
+    assert chosen.solution.total <= chosen.stage.cost_bound
+    assert not chosen.check.failing()
+    # Not past the size limit: no warning about it.
+    assert not any("cost bound" in w or "one run holds" in w for w in chosen.warnings)
+    assert compare_feeds(chosen, catalog) == compare_feeds(whole, catalog)
+
+
+def test_the_shipped_threshold_takes_the_route_for_the_desk_example_at_1_w(catalog) -> None:
+    result = run(_desk(1.0), catalog)
+    assert _built_by_choice(result)
+    assert len(result.stage.configs) < 69_703
+
+
+def test_whole_forced_and_fewest_lines_build_the_whole_table(catalog, monkeypatch) -> None:
+    _low_choice(monkeypatch)
+    spec = CASES["bench 22 W current source"]()
+    chosen = run(spec, catalog)
+    assert _built_by_choice(chosen)
+    npn = chosen.check.design["output_npn"] if "output_npn" in chosen.check.design else None
+    assert run(spec, catalog, whole=True).stage.cost_bound is None
+    assert run(spec, catalog, objective="lines").stage.cost_bound is None
+    mpn = npn or next(src for src, _q, role in option_sources(chosen, "stage", chosen.solution.choice["stage"]) if role == "output_npn")
+    forced = run(spec, catalog, forced={"output_npn": mpn})
+    assert forced.stage.cost_bound is None and forced.solution.total == pytest.approx(chosen.solution.total, abs=1e-6)
+
+
+def test_past_the_size_limit_the_route_is_the_bounded_one_with_its_warning(catalog, monkeypatch) -> None:
+    _low_choice(monkeypatch)
+    spec = CASES["bench 22 W current source"]()
+    rows = len(run(spec, catalog, whole=True).stage.configs)
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", rows - 1)
+    bounded = run(spec, catalog)
+    assert isinstance(bounded.search, BoundedSearch) and not bounded.search.fits
+    assert any("one run holds" in w for w in bounded.warnings)
+
+
+def test_alternatives_rank_on_the_whole_table(catalog, monkeypatch) -> None:
+    _low_choice(monkeypatch)
+    spec = CASES["bench 20 W auto"]()
+    alts = alternatives(spec, catalog, 3)
+    assert len(alts) == 3 and all(a.status == "ok" for a in alts)
+    assert all(a.stage.cost_bound is None for a in alts)
+    totals = [a.solution.total for a in alts]
+    assert totals == sorted(totals)
+
+
+def test_the_design_command_asks_for_the_whole_table_for_alternatives_and_risk(catalog, monkeypatch, tmp_path, capsys) -> None:
+    from partpick.cli import main
+
+    seen: list[bool] = []
+    real = design.run
+
+    def spy(*args, **kwargs):
+        seen.append(kwargs.get("whole", False))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(design, "run", spy)
+    spec = str(EXAMPLES / "bench_2x25w_split.toml")
+    for extra, want in (([], False), (["--alternatives", "2"], True), (["--risk"], True)):
+        seen.clear()
+        assert main(["--no-color", "design", spec, "--catalog", str(DEMO_CATALOG), "--quiet", *extra]) == 0, capsys.readouterr().err
+        assert seen and seen[0] is want, extra
+
+
+def test_designing_on_without_a_part_stays_a_search_by_choice_and_is_exact(catalog, monkeypatch) -> None:
+    _low_choice(monkeypatch)
+    spec = CASES["bench 22 W current source"]()
+    chosen = run(spec, catalog)
+    families = set(chosen.pool.passives["family"])
+    parts = sorted({src for g, o in chosen.solution.choice.items() for src, _q, _r in option_sources(chosen, g, o)} - families)
+    assert len(parts) >= 5
+    for src in parts[:3]:
+        again = design_without(chosen, (src,))
+        want = run(spec, catalog, exclude=(src,), whole=True)
+        assert again.search.fits
+        assert again.status == want.status == "ok"
+        assert again.solution.total == pytest.approx(want.solution.total, abs=1e-6)
+
+
+def test_a_design_by_choice_left_unproven_says_how_its_table_was_built(catalog, monkeypatch) -> None:
+    _low_choice(monkeypatch)
+    chosen = run(CASES["bench 22 W current source"](), catalog)
+    design._unproven(chosen, "the time limit ran out before it was proven")
+    assert chosen.status == "not proven optimal"
+    assert chosen.warnings[-1].startswith("partpick builds the current-source stage configurations in order of their cost bound; "
+                                          "this design comes from the ")
