@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import os
 import shutil
 from pathlib import Path
 
@@ -10,6 +11,9 @@ import pytest
 
 from partpick.catalog import load_catalog
 from partpick.errors import InputError, Problem
+
+# The tests read catalogues afresh (and write none to the user's cache); the cache's own tests turn it on.
+os.environ["PARTPICK_CACHE_DIR"] = "off"
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_CATALOG = ROOT / "catalog"

@@ -79,6 +79,9 @@ def default_catalog_dir() -> Path:
 def load_catalog(folder: str | Path) -> Catalog:
     """Load and validate every file of a catalogue folder.
 
+    A catalogue loaded before, with every file byte for byte the same, comes
+    from partpick's cache (:mod:`partpick.catalog.cache`).
+
     Raises
     ------
     InputError
@@ -88,11 +91,22 @@ def load_catalog(folder: str | Path) -> Catalog:
     problems: list[Problem] = []
     if not folder.is_dir():
         raise InputError([Problem(str(folder), 0, "", "catalogue folder not found")])
+    from partpick.catalog import cache
+
+    prints = _fingerprints(folder)
+    name_of = None
+    if prints is not None:
+        digests = {name: digest for name, (digest, _lines) in prints.items()}
+        name_of = cache.key(folder, digests)
+        kept = cache.get(name_of)
+        if isinstance(kept, Catalog) and kept.file_sha256 == digests:
+            kept.folder = str(folder)  # as this run names it
+            return kept
     frames: dict[str, pd.DataFrame] = {}
     hashes: dict[str, str] = {}
     for name, model in FILES.items():
         path = folder / name
-        rows, file_problems, digest = _read_file(path, model)
+        rows, file_problems, digest = _read_file(path, model, None if prints is None else prints[name])
         problems.extend(file_problems)
         hashes[name] = digest
         frames[name] = _frame(rows, model)
@@ -104,7 +118,7 @@ def load_catalog(folder: str | Path) -> Catalog:
     if problems:
         raise InputError(problems)
     _attach_soa(frames["transistors.csv"])
-    return Catalog(
+    catalog = Catalog(
         folder=str(folder),
         transistors=frames["transistors.csv"],
         opamps=frames["opamps.csv"],
@@ -117,6 +131,26 @@ def load_catalog(folder: str | Path) -> Catalog:
         file_sha256=hashes,
         warnings=warnings,
     )
+    if name_of is not None:
+        cache.put(name_of, catalog)
+    return catalog
+
+
+def _fingerprints(folder: Path) -> dict[str, tuple[str, int]] | None:
+    """Every file's (sha256, line count) when each can be read whole (:func:`_read_file`'s limits); else None.
+
+    The catalogue's name in the cache (:mod:`partpick.catalog.cache`); a
+    folder with a missing or oversized file is read as usual, to report it.
+    """
+    out = {}
+    for name in FILES:
+        path = folder / name
+        if not path.is_file() or path.stat().st_size > MAX_FILE_BYTES:
+            return None
+        out[name] = _fingerprint(path)
+        if out[name][1] > MAX_LINES:
+            return None
+    return out
 
 
 # --------------------------------------------------------------------------- reading
@@ -130,13 +164,14 @@ class _Unreadable(Exception):
         self.line, self.reason = line, reason
 
 
-def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple], list[Problem], str]:
+def _read_file(path: Path, model: type[Row], fingerprint: tuple[str, int] | None = None) -> tuple[list[tuple], list[Problem], str]:
     """Rows of one file (tuples: line, then the model's fields), its problems and its sha256.
 
     The file is never held whole: a first pass hashes it and counts its lines
     in fixed-size chunks, and a file of more than :data:`MAX_LINES` lines is
     refused there, before any row is parsed; the second pass parses one line
     at a time. Memory stays bounded whatever the file's size.
+    ``fingerprint``: that first pass's (sha256, lines), when the caller has it.
     """
     label = str(path)
     if not path.is_file():
@@ -145,7 +180,7 @@ def _read_file(path: Path, model: type[Row]) -> tuple[list[tuple], list[Problem]
     if size > MAX_FILE_BYTES:
         reason = f"file is {size / 2**20:.0f} MiB; partpick reads at most {MAX_FILE_BYTES // 2**20} MiB"
         return [], [Problem(label, 0, "", reason)], ""
-    digest, lines = _fingerprint(path)
+    digest, lines = fingerprint if fingerprint is not None else _fingerprint(path)
     if lines > MAX_LINES:
         reason = (f"file has {lines} lines; partpick reads at most {MAX_LINES} lines per file "
                   "(split the catalogue or filter it)")

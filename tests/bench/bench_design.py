@@ -74,10 +74,12 @@ import argparse
 import itertools
 import json
 import math
+import os
 import resource
 import statistics
 import subprocess
 import sys
+import tempfile
 import time
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -557,6 +559,7 @@ def measure_size(size: str, spec_path: Path, repeat: int, seed: int, solver: str
                                       f"(address-space limit {limit_gib:g} GiB, --memory-limit; resident peak {rss:.0f} MiB)")
     rss_self = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     rss_children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0
+    cached = cached_load(folder)
     last = runs[-1]
     problem = last.result.assembly.problem
     built = len(last.result.stage.configs)  # the stage configurations of partpick's (last) table
@@ -570,7 +573,7 @@ def measure_size(size: str, spec_path: Path, repeat: int, seed: int, solver: str
         status=last.result.status,
         groups={g: len(grp) for g, grp in problem.groups.items()}, built=built,
         lines=len(problem.line_offers),
-        rss_self_mib=rss_self, rss_children_mib=rss_children,
+        rss_self_mib=rss_self, rss_children_mib=rss_children, load_cached=cached,
         tolerance=agreement_tolerance(problem, last.result.solution),
     )
     out["median"]["total"] = sum(out["median"][k] for k in SUMMED + ("bounded search",) if not math.isnan(out["median"].get(k, math.nan)))
@@ -581,6 +584,22 @@ def measure_size(size: str, spec_path: Path, repeat: int, seed: int, solver: str
         out["exhaustive"] = dict(skipped=f"skipped (>{exhaustive_limit_s:g} s): {exc}")
     out["unpruned"] = unpruned_route(problem, solver, solve_limit_s) if unpruned else dict(skipped="skipped (size not in --unpruned-sizes)")
     return out
+
+
+def cached_load(folder: Path) -> float:
+    """Seconds :func:`load_catalog` takes from partpick's cache (a second load of the same files, in a cache folder of its own).
+
+    The ``load`` stage reads the files: the worker runs with the cache off.
+    """
+    with tempfile.TemporaryDirectory(prefix="partpick-bench-cache-") as where:
+        os.environ["PARTPICK_CACHE_DIR"] = where
+        try:
+            load_catalog(folder)
+            t = time.perf_counter()
+            load_catalog(folder)
+            return time.perf_counter() - t
+        finally:
+            os.environ["PARTPICK_CACHE_DIR"] = "off"
 
 
 def unpruned_route(problem: Problem, solver: str, time_limit_s: float) -> dict:
@@ -614,6 +633,8 @@ def table(m: dict) -> str:
     for k in (*STAGES, "bounded search", "total"):
         if k in med:
             lines.append(f"   {k:<13}{med[k]:>12.3f}" if not math.isnan(med[k]) else f"   {k:<13}{'-':>12}")
+    if "load_cached" in m:
+        lines.append(f"   load from partpick's cache (the same files read before; one run): {m['load_cached']:.3f} s")
     lines.append(f"   peak memory (ru_maxrss): python {m['rss_self_mib']:.0f} MiB; "
                  f"largest child (solver, counted from fork, so at least python's size then) {m['rss_children_mib']:.0f} MiB")
     pp = m["totals"][-1]
@@ -675,6 +696,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--worker", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     if args.worker:
+        os.environ["PARTPICK_CACHE_DIR"] = "off"  # `load` reads the files (cached_load times the cache)
         cap = int(args.memory_limit * 2**30)
         resource.setrlimit(resource.RLIMIT_AS, (cap, cap))
         m = measure_size(args.worker, Path(args.spec), args.repeat, args.seed, args.solver, args.exhaustive_limit,
