@@ -38,7 +38,12 @@ def folder() -> Path | None:
     given = os.environ.get("PARTPICK_CACHE_DIR")
     if given is not None:
         return None if given.strip().lower() in ("", "off") else Path(given)
-    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
+    base = os.environ.get("XDG_CACHE_HOME")
+    if not base:
+        try:
+            base = str(Path.home() / ".cache")
+        except (RuntimeError, KeyError):  # no home folder to be found: no cache
+            return None
     return Path(base) / "partpick"
 
 
