@@ -84,7 +84,7 @@ def heatsink_candidates(spec: Spec, pool: Pool, targets: Targets, packages: set[
     n_dev = 2 * (targets.channels if spec.thermal.shared_heatsink else 1)
     mounts = [{p.strip() for p in s.split(";") if p.strip()} for s in hs["packages"]]
     classes = [float(c) if not (isinstance(c, float) and math.isnan(c)) else math.nan for c in hs["rth_cs_k_w"]]
-    best = [best_rth.get(_class_key(c), -np.inf) for c in classes]
+    best = [best_rth.get(class_key(c), -np.inf) for c in classes]
     checks = [
         ("device count (s.6)", hs["max_devices"] >= n_dev,
          [f"holds {m} devices, the stage puts {n_dev} on one sink" for m in hs["max_devices"]]),
@@ -100,7 +100,8 @@ def heatsink_candidates(spec: Spec, pool: Pool, targets: Targets, packages: set[
     return out
 
 
-def _class_key(c: float) -> float:
+def class_key(c: float) -> float:
+    """A mounting class's key in per-class tables: its Rth_cs [K/W], -1.0 for the class without one (NaN, which is no key)."""
     return -1.0 if math.isnan(c) else c
 
 

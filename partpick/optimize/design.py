@@ -9,6 +9,7 @@ import numpy as np
 
 from partpick.catalog import Catalog
 from partpick.evaluate.context import Pool, Targets, make_pool
+from partpick.evaluate.roles import class_key
 from partpick.evaluate.selection import SelectionCheck, check_selection
 from partpick.errors import SizeLimitError
 from partpick.evaluate import stage as stage_rules
@@ -647,7 +648,7 @@ def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs,
 
     sink = cores.sink
     classes = [] if sink is None else sink.classes
-    class_of = {(-1.0 if math.isnan(c) else c): i for i, c in enumerate(classes)}
+    class_of = {class_key(c): i for i, c in enumerate(classes)}
     if hs is None or not len(hs):
         hs = pool.heatsinks.iloc[:0].assign(mounts=[], rth_class=[], per_board=[])
     mounts = list(hs["mounts"])
@@ -658,7 +659,7 @@ def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs,
     cost = np.array([cheapest_purchase(offers[m], math.ceil(order_units(float(n), spec.order.factor)))
                      for m, n in zip(hs["mpn"], hs["per_board"])], dtype=float)
     cost[hs["mpn"].isin(forbidden).to_numpy()] = np.inf
-    class_i = np.array([class_of[-1.0 if (isinstance(c, float) and math.isnan(c)) else float(c)] for c in hs["rth_class"]], dtype=np.int64)
+    class_i = np.array([class_of[class_key(float(c))] for c in hs["rth_class"]], dtype=np.int64)
     if cores.core is not None:
         pkg = cores.pairs["package"].to_numpy()[cores.core["pair_i"].to_numpy(int)]
         core_package = np.array([code.get(p, -1) for p in pkg], dtype=np.int64)

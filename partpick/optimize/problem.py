@@ -16,6 +16,7 @@ import pandas as pd
 from partpick.evaluate.context import Pool, Targets
 from partpick.evaluate.distinct import distinct_rows
 from partpick.evaluate.roles import (
+    class_key,
     comp_cap_options,
     diode_candidates,
     heatsink_candidates,
@@ -186,7 +187,7 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, *, hea
 
     # --- heatsinks
     packages = set(pairs["package"].iloc[np.unique(k["pair_i"])])
-    best_rth = {(-1.0 if math.isnan(c) else c): float(np.max(stage.rth_sa_max[:, i])) for i, c in enumerate(stage.rth_cs_classes)}
+    best_rth = {class_key(c): float(np.max(stage.rth_sa_max[:, i])) for i, c in enumerate(stage.rth_cs_classes)}
     hc = heatsink_candidates(spec, pool, targets, packages, best_rth)
     candidates["heatsink"] = hc
     funnel["heatsink"] = _counts(hc)
@@ -201,7 +202,7 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, *, hea
     k_pkg = pairs["package"].to_numpy()[k["pair_i"].to_numpy()]
     k_src_pkg = k["ccs_package"].to_numpy()
     k_devices = k["sink_devices"].to_numpy(int)
-    class_of = {(-1.0 if math.isnan(c) else c): i for i, c in enumerate(stage.rth_cs_classes)}
+    class_of = {class_key(c): i for i, c in enumerate(stage.rth_cs_classes)}
     # Packages as codes, so each sink's test is a lookup instead of a string search per configuration.
     names = sorted(set(k_pkg) | set(k_src_pkg) - {""})
     code = {p: i for i, p in enumerate(names)}
@@ -211,7 +212,7 @@ def assemble(spec: Spec, pool: Pool, targets: Targets, stage: StageTable, *, hea
     for r, c, mounts, n_max in zip(hs["rth_sa_k_w"], hs["rth_class"], hs["mounts"], hs["max_devices"]):
         holds = np.array([p in mounts for p in names] + [True], dtype=bool)  # index -1: no source on the sink
         hs_compat.append(np.flatnonzero(
-            (stage.rth_sa_max[:, class_of[-1.0 if math.isnan(c) else c]] >= r) & holds[k_pkg_c] & holds[k_src_c] & (k_devices <= n_max)
+            (stage.rth_sa_max[:, class_of[class_key(c)]] >= r) & holds[k_pkg_c] & holds[k_src_c] & (k_devices <= n_max)
         ))
     if heatsinks:
         keep = [i for i, c in enumerate(hs_compat) if len(c)]
