@@ -177,11 +177,14 @@ def run(
     designs ranked, a forced part) or ``forced`` is given; when that search
     finds no design, the whole table is built to say why.
     """
+    from partpick.optimize.milp import _clock
+
+    started = _clock()  # a bounded search's time limit counts from here (its bounds are part of the search)
     cost = (objective or spec.order.objective) == "cost"
     if cost and not whole and not forced:
         chosen = _by_choice(spec, catalog, exclude, spec_label, time_limit)
         if chosen is not None:
-            result = _bounded_rounds(*chosen, solver=solver, time_limit=time_limit)
+            result = _bounded_rounds(*chosen, solver=solver, time_limit=time_limit, started=started)
             if result.status != "infeasible":
                 return result
             # No design: the whole table says why, configuration by configuration.
@@ -191,7 +194,7 @@ def run(
         if not cost:
             raise
         return run_bounded(spec, catalog, exclude=exclude, solver=solver, spec_label=spec_label, forced=forced,
-                           time_limit=time_limit, too_large=exc)
+                           time_limit=time_limit, too_large=exc, started=started)
     return _forced_finish(result, forced, solver, time_limit)
 
 
@@ -277,6 +280,7 @@ def run_bounded(
     forced: dict[str, str] | None = None,
     time_limit: float | None = None,
     too_large: SizeLimitError | None = None,
+    started: float | None = None,
 ) -> DesignResult:
     """:func:`run` with the cost objective, building only the current-source feeds that can be in the cheapest design.
 
@@ -313,14 +317,22 @@ def run_bounded(
     another than the whole table would. The result's ``stage.cost_bound``
     is the last threshold: the design's table holds every configuration of
     any design that costs no more.
+
+    ``time_limit`` counts from ``started`` (the caller's clock reading,
+    :func:`~partpick.optimize.milp._clock`; default: now): the relaxed
+    table, the bounds and the count of candidate rows are part of the
+    search it bounds.
     """
+    from partpick.optimize.milp import _clock
+
+    started = _clock() if started is None else started
     spec = _cost_spec(spec)
     pool, targets, search = _bounded_start(spec, catalog, exclude, spec_label, too_large, time_limit)
     if search is None:
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
         raise too_large or SizeLimitError("no design, and too many stage configurations to say why")
-    return _bounded_rounds(spec, pool, targets, search, solver=solver, forced=forced, time_limit=time_limit)
+    return _bounded_rounds(spec, pool, targets, search, solver=solver, forced=forced, time_limit=time_limit, started=started)
 
 
 def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: str = "cbc", time_limit: float | None = None,
@@ -342,10 +354,11 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
     table under ``result``'s cost bound holds no design without the parts,
     and the threshold starts one growth step above it.
     """
-    from partpick.optimize.milp import _tie_margin, objective_value
+    from partpick.optimize.milp import _clock, _tie_margin, objective_value
 
     if not isinstance(result.search, BoundedSearch):
         raise ValueError("design_without continues a design of run_bounded only")
+    started = _clock()
     search = _bounded_search(result.spec, result.pool, result.targets, result.search.catalog, result.search.cores, None,
                              result.search.forbidden + tuple(sources))
     if search is None:
@@ -361,19 +374,23 @@ def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: st
         # The parts' bounds only rose, so the table under the cost bound still has no design.
         threshold = search.floor + BOUND_GROWTH * (result.stage.cost_bound - search.floor)
     return _bounded_rounds(result.spec, result.pool, result.targets, search, solver=solver, time_limit=time_limit,
-                           threshold=threshold)
+                           threshold=threshold, started=started)
 
 
 def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSearch, *, solver: str,
                     forced: dict[str, str] | None = None, time_limit: float | None = None,
-                    threshold: float | None = None) -> DesignResult:
+                    threshold: float | None = None, started: float | None = None) -> DesignResult:
     """:func:`run_bounded`'s rounds over ``search``, from ``threshold`` (default: the first above the least bound).
 
     The search's ``forbidden`` parts are forbidden in every round (:func:`forbid_parts`).
+    ``time_limit`` counts from ``started`` (default: now); when it runs out
+    before any design is found, the :class:`~partpick.errors.SolverTimeout`
+    names it, not what was left of it at the last solve.
     """
     from partpick.errors import SolverTimeout
     from partpick.optimize.milp import _clock, _tie_margin, first_threshold, objective_value
 
+    deadline = None if time_limit is None else (_clock() if started is None else started) + time_limit
     bound, cores, catalog = search.bound, search.cores, search.catalog
     floor = search.floor
     if search.candidates is None:
@@ -393,7 +410,6 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
         threshold = max(first_threshold(floor), at_rows(CHOICE_FIRST_ROWS if search.fits else FIRST_ROWS))
     else:
         threshold = max(threshold, first_threshold(floor))
-    deadline = None if time_limit is None else _clock() + time_limit
     best: DesignResult | None = None  # the cheapest design found, not yet proven
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
     splits = 0
@@ -420,7 +436,12 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
                 if best is None:
                     raise SolverTimeout(time_limit)
                 return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
-            result = _forced_finish(result, forced, solver, left, _carried(best, asm))
+            try:
+                result = _forced_finish(result, forced, solver, left, _carried(best, asm))
+            except SolverTimeout:
+                if best is None:
+                    raise SolverTimeout(time_limit) from None
+                return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
             if result.status == "not proven optimal":
                 if best is not None and best.solution.total < result.solution.total:
                     return _unproven(best, "the time limit ran out before it was proven")
@@ -497,12 +518,12 @@ def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = 
     from partpick.errors import SolverTimeout
     from partpick.optimize.milp import _clock, first_threshold, has_design
 
+    deadline = None if time_limit is None else _clock() + time_limit  # the bounds are part of the search
     pool, targets, search = _bounded_start(spec, catalog, exclude, "spec", too_large, time_limit)
     if search is None:
         return False
     floor = search.floor
     threshold = first_threshold(floor)
-    deadline = None if time_limit is None else _clock() + time_limit
     while True:
         stage = evaluate_stage(spec, pool, targets, feed_bound=replace(search.bound, threshold=threshold), cores=search.cores)
         asm = assemble(spec, pool, targets, stage)
@@ -510,8 +531,11 @@ def has_design_bounded(spec: Spec, catalog: Catalog, exclude: tuple[str, ...] = 
             left = None if deadline is None else deadline - _clock()
             if left is not None and left <= 0:
                 raise SolverTimeout(time_limit)
-            if has_design(asm.problem, time_limit=left):
-                return True
+            try:
+                if has_design(asm.problem, time_limit=left):
+                    return True
+            except SolverTimeout:
+                raise SolverTimeout(time_limit) from None  # the caller's limit, not what was left of it
         if stage.cut_cores == 0:
             return False
         threshold = floor + BOUND_GROWTH * (threshold - floor)

@@ -164,3 +164,61 @@ def test_a_design_by_choice_left_unproven_says_how_its_table_was_built(catalog, 
     assert chosen.status == "not proven optimal"
     assert chosen.warnings[-1].startswith("partpick builds the current-source stage configurations in order of their cost bound; "
                                           "this design comes from the ")
+
+
+class _FakeClock:
+    """A clock for the searches' deadlines (``milp._clock``): it moves only when told to."""
+
+    def __init__(self) -> None:
+        self.now = 0.0
+
+    def __call__(self) -> float:
+        return self.now
+
+
+@pytest.mark.parametrize("past_limit", [False, True])
+def test_a_bounded_searchs_time_limit_counts_its_bounds(past_limit, catalog, monkeypatch) -> None:
+    """The relaxed table and its bounds are part of the search: a limit they use up leaves no round to run.
+
+    The fake clock moves 100 s while the bounds are computed; under a 50 s
+    limit the search then stops before its first table, naming the user's
+    limit. Under 500 s it designs as usual.
+    """
+    from partpick.errors import SolverTimeout
+    from partpick.optimize import milp
+
+    spec = CASES["bench 22 W current source"]()
+    want = run(spec, catalog, whole=True).solution.total
+    _low_choice(monkeypatch)
+    if past_limit:
+        monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)
+    clock = _FakeClock()
+    monkeypatch.setattr(milp, "_clock", clock)
+    real = design.feed_bound
+
+    def slow_bounds(*args, **kwargs):
+        clock.now += 100.0
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(design, "feed_bound", slow_bounds)
+    with pytest.raises(SolverTimeout) as info:
+        run(spec, catalog, time_limit=50.0)
+    assert info.value.time_limit == 50.0 and "50 s" in str(info.value)
+    timed = run(spec, catalog, time_limit=500.0)
+    assert timed.status == "ok" and timed.solution.total == pytest.approx(want, abs=1e-6)
+    assert isinstance(timed.search, BoundedSearch) and timed.search.fits is not past_limit
+
+
+def test_a_round_that_times_out_names_the_users_limit(catalog, monkeypatch) -> None:
+    """A solve in a round that finds no design by its share of the time: the error names the whole limit, not the share."""
+    from partpick.errors import SolverTimeout
+
+    _low_choice(monkeypatch)
+
+    def out_of_time(result, forced, solver, left, start=None):
+        raise SolverTimeout(left)
+
+    monkeypatch.setattr(design, "_forced_finish", out_of_time)
+    with pytest.raises(SolverTimeout) as info:
+        run(CASES["bench 22 W current source"](), catalog, time_limit=321.0)
+    assert info.value.time_limit == 321.0
