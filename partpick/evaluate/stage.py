@@ -549,6 +549,10 @@ def re_options(pool: Pool, targets: Targets) -> pd.DataFrame:
 
 #: The funnel's entry for core configurations a :class:`FeedBound` left without a feed.
 ABOVE_BOUND = FeedBound.label
+#: The funnel's entry for those of them with an infinite bound: no design holds them, fed
+#: by anything (the relaxed table, fed by nothing, has none; a whole table would count
+#: them under the bias feed, or build feeds no design can use).
+NO_DESIGN_ANY_FEED = "no design with it, whatever its feed (cost bound)"
 
 FIRST_FAIL_ORDER = (
     "transistor headroom (s.3)",
@@ -688,7 +692,13 @@ def evaluate_stage(spec: Spec, pool: Pool, targets: Targets, *, relaxed: bool = 
     funnel["bias feed (s.3)"] = int(len(unserved))
     if feed_bound is not None:
         # Not rejected by a constraint: their feeds were not built (the bound).
-        funnel[feed_bound.label] = int(len(fed.above_bound))
+        above = fed.above_bound
+        if isinstance(feed_bound, FeedBound):
+            hopeless = int(np.count_nonzero(~np.isfinite(np.asarray(feed_bound.core_lb, float)[above])))
+            funnel[NO_DESIGN_ANY_FEED] = hopeless
+            funnel[feed_bound.label] = int(len(above)) - hopeless
+        else:
+            funnel[feed_bound.label] = int(len(above))
     feed_rejected = core.iloc[unserved].copy()
     feed_rejected["rejected_by"] = "bias feed (s.3)"
     feed_rejected["r1_max_ohm"] = fed.unserved_r1_max

@@ -9,6 +9,7 @@ rows; the other cases lower ``CHOICE_ROWS`` to take the route.
 
 from __future__ import annotations
 
+import numpy as np
 import pytest
 from conftest import DEMO_CATALOG, ROOT
 from optimize.test_bounded_feeds import _bench
@@ -222,3 +223,33 @@ def test_a_round_that_times_out_names_the_users_limit(catalog, monkeypatch) -> N
     with pytest.raises(SolverTimeout) as info:
         run(CASES["bench 22 W current source"](), catalog, time_limit=321.0)
     assert info.value.time_limit == 321.0
+
+
+def test_the_funnel_counts_every_core_once_and_cores_without_any_design_have_none(catalog, monkeypatch) -> None:
+    """The output stage's funnel after the core checks adds up to the core configurations; those it counts as having
+    no design whatever their feed (an infinite bound) have none in the whole table either (each forced in turn)."""
+    from partpick.optimize.milp import Coupling, rules_kept, solve
+
+    _low_choice(monkeypatch)
+    spec = CASES["bench 22 W current source"]()
+    chosen = run(spec, catalog)
+    assert _built_by_choice(chosen)
+    funnel = chosen.stage.funnel
+    n_cores = len(chosen.search.cores.core)
+    after = ("bias feed (s.3)", stage.NO_DESIGN_ANY_FEED, stage.ABOVE_BOUND, "regulator heat (s.10)")
+    built = chosen.stage.configs["core_i"].nunique()
+    assert sum(funnel[k] for k in after) + built == n_cores
+    hopeless = np.flatnonzero(~np.isfinite(chosen.search.bound.core_lb))
+    assert funnel[stage.NO_DESIGN_ANY_FEED] > 0 and len(hopeless) >= funnel[stage.NO_DESIGN_ANY_FEED]
+    whole = run(spec, catalog, whole=True)
+    core_of = whole.assembly.tables["stage"]["core_i"].to_numpy()
+    tried = 0
+    for c in hopeless[:: max(1, len(hopeless) // 4)]:
+        mask = (core_of == c).astype(float)
+        if not mask.any():
+            continue  # no feed serves it in the whole table
+        with rules_kept(whole.assembly.problem) as problem:
+            problem.couplings.append(Coupling("this core", {"stage": mask}, ">=", 1.0))
+            assert solve(problem).status == "infeasible"
+        tried += 1
+    assert tried > 0

@@ -338,7 +338,8 @@ def test_cores_without_any_design_are_left_out_but_not_counted_as_cut(catalog) -
     assert bounded.cut_cores == 0
     assert (bounded.configs["feed"] == "resistor").all()
     assert len(bounded.configs) == int((whole.configs["feed"] == "resistor").sum())
-    assert bounded.funnel[stage.ABOVE_BOUND] > 0  # cores only a current source could feed
+    # Cores only a current source could feed: no design holds them, whatever the feed.
+    assert bounded.funnel[stage.NO_DESIGN_ANY_FEED] > 0 and bounded.funnel[stage.ABOVE_BOUND] == 0
     assert bounded.funnel["bias feed (s.3)"] <= whole.funnel["bias feed (s.3)"]
 
 
