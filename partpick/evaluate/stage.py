@@ -1025,8 +1025,7 @@ class _LowHeat:
     @classmethod
     def of(cls, spec: Spec, core: pd.DataFrame, sink: _Sink, cols: dict[str, np.ndarray] | None = None) -> _LowHeat:
         cols = cols if cols is not None else _stage_columns(core)
-        rail_max = core["rail_max_v"].to_numpy(float)
-        i_a = swing.ccs_current_required_a(core["ib_peak_a"].to_numpy(float))
+        _rail_min, rail_max, i_a, *_rest = _ccs_needs(spec, core)
         return cls(cols, rail_max, i_a, _stage_rth(spec, cols, sink, sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)))
 
     def limits(self, spec: Spec, sink: _Sink, dev: dict) -> np.ndarray:
@@ -1077,7 +1076,7 @@ def candidate_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores
     for s, dev, d_i, per, mount, ok in _candidate_rows(spec, pool, cores):
         if mount == "heatsink" and low is not None and last is not s:
             sink_cost, last = bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev)), s
-        lb = bound.row_bound(s, d_i, per, targets.channels, sink_cost if mount == "heatsink" and low is not None else None)[ok]
+        lb = bound.row_bound(s, d_i, per, targets.channels, sink_cost if mount == "heatsink" else None)[ok]
         out.append(lb[np.isfinite(lb)])
     return np.sort(np.concatenate(out)) if out else np.zeros(0)
 

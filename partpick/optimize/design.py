@@ -133,7 +133,12 @@ def prepare(
         spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": objective})})
     pool = make_pool(spec, catalog, tuple(exclude), spec_label)
     targets = Targets.from_spec(spec)
-    stage = evaluate_stage(spec, pool, targets)
+    return _prepared(spec, catalog, pool, targets, stage_cores(spec, pool, targets))
+
+
+def _prepared(spec: Spec, catalog: Catalog, pool: Pool, targets: Targets, cores: StageCores) -> DesignResult:
+    """:func:`prepare` from the pool, targets and core configurations the caller has."""
+    stage = evaluate_stage(spec, pool, targets, cores=cores)
     asm = assemble(spec, pool, targets, stage)
     status = "infeasible" if asm is None or asm.problem is None else "prepared"
     return DesignResult(spec, pool, targets, stage, asm, None, None, status, list(catalog.warnings))
@@ -180,26 +185,32 @@ def run(
     from partpick.optimize.milp import _clock
 
     started = _clock()  # a bounded search's time limit counts from here (its bounds are part of the search)
-    cost = (objective or spec.order.objective) == "cost"
+    if objective:
+        spec = spec.model_copy(update={"order": spec.order.model_copy(update={"objective": objective})})
+    cost = spec.order.objective == "cost"
+    # One pool and one set of core configurations for every route below (the objective changes neither).
+    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
+    targets = Targets.from_spec(spec)
+    cores = stage_cores(spec, pool, targets)
     if cost and not whole and not forced:
-        chosen = _by_choice(spec, catalog, exclude, spec_label, time_limit)
+        chosen = _by_choice(spec, catalog, pool, targets, cores, time_limit)
         if chosen is not None:
             result = _bounded_rounds(*chosen, solver=solver, time_limit=time_limit, started=started)
             if result.status != "infeasible":
                 return result
             # No design: the whole table says why, configuration by configuration.
     try:
-        result = prepare(spec, catalog, exclude=exclude, objective=objective, spec_label=spec_label)
+        result = _prepared(spec, catalog, pool, targets, cores)
     except SizeLimitError as exc:
         if not cost:
             raise
         return run_bounded(spec, catalog, exclude=exclude, solver=solver, spec_label=spec_label, forced=forced,
-                           time_limit=time_limit, too_large=exc, started=started)
+                           time_limit=time_limit, too_large=exc, started=started, given=(pool, targets, cores))
     return _forced_finish(result, forced, solver, time_limit)
 
 
-def _by_choice(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_label: str, time_limit: float | None):
-    """(spec, pool, targets, search) of :func:`run`'s bounded route by choice, or None for the whole table.
+def _by_choice(spec: Spec, catalog: Catalog, pool: Pool, targets: Targets, cores: StageCores, time_limit: float | None):
+    """(spec, pool, targets, search) of :func:`run`'s bounded route by choice over ``cores``, or None for the whole table.
 
     Taken with at least :data:`CHOICE_ROWS` current-source rows, and with so
     few that the whole table fits the size limit (counted from above:
@@ -212,9 +223,6 @@ def _by_choice(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_labe
     there is no design).
     """
     spec = _cost_spec(spec)
-    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
-    targets = Targets.from_spec(spec)
-    cores = stage_cores(spec, pool, targets)
     n_cores = 0 if cores.core is None else len(cores.core)
     if not n_cores or n_cores > RELAXED_ROWS_MAX:
         return None
@@ -281,6 +289,7 @@ def run_bounded(
     time_limit: float | None = None,
     too_large: SizeLimitError | None = None,
     started: float | None = None,
+    given: tuple[Pool, Targets, StageCores] | None = None,
 ) -> DesignResult:
     """:func:`run` with the cost objective, building only the current-source feeds that can be in the cheapest design.
 
@@ -321,13 +330,14 @@ def run_bounded(
     ``time_limit`` counts from ``started`` (the caller's clock reading,
     :func:`~partpick.optimize.milp._clock`; default: now): the relaxed
     table, the bounds and the count of candidate rows are part of the
-    search it bounds.
+    search it bounds. ``given``: the pool, targets and core configurations
+    of this spec, catalogue and exclusions, when the caller has them.
     """
     from partpick.optimize.milp import _clock
 
     started = _clock() if started is None else started
     spec = _cost_spec(spec)
-    pool, targets, search = _bounded_start(spec, catalog, exclude, spec_label, too_large, time_limit)
+    pool, targets, search = _bounded_start(spec, catalog, exclude, spec_label, too_large, time_limit, given)
     if search is None:
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
@@ -470,15 +480,19 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
 
 
 def _bounded_start(spec: Spec, catalog: Catalog, exclude: tuple[str, ...], spec_label: str, too_large: SizeLimitError | None,
-                   time_limit: float | None):
+                   time_limit: float | None, given: tuple[Pool, Targets, StageCores] | None = None):
     """(pool, targets, the :func:`_bounded_search` over its core configurations) of a bounded search.
 
     Without a time limit, a search past :data:`UNTIMED_CELLS_MAX` raises
-    ``too_large``, saying that a time limit lets it go on.
+    ``too_large``, saying that a time limit lets it go on. ``given``: the
+    pool, targets and core configurations, when the caller has them.
     """
-    pool = make_pool(spec, catalog, tuple(exclude), spec_label)
-    targets = Targets.from_spec(spec)
-    cores = stage_cores(spec, pool, targets)
+    if given is not None:
+        pool, targets, cores = given
+    else:
+        pool = make_pool(spec, catalog, tuple(exclude), spec_label)
+        targets = Targets.from_spec(spec)
+        cores = stage_cores(spec, pool, targets)
     n_cores = 0 if cores.core is None else len(cores.core)
     if time_limit is None and n_cores * len(pool.heatsinks) > UNTIMED_CELLS_MAX:
         raise SizeLimitError(
@@ -607,8 +621,7 @@ def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, forb
     one are left out before the bounds, and their prices are ``inf`` (as if
     the parts were not in the catalogue).
     """
-    from partpick.optimize.buying import least_unit_price
-    from partpick.optimize.problem import _offers
+    from partpick.optimize.problem import least_prices, offers_by_part
     from partpick.optimize.prune import _all_needs, lower_bounds, restrict
 
     relaxed = evaluate_stage(spec, pool, targets, relaxed=True, cores=cores)
@@ -618,10 +631,9 @@ def feed_bound(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, forb
     n = 0 if cores.core is None else len(cores.core)
     core_parts = np.full(n, np.inf)
     tr, di = pool.transistors["mpn"].tolist(), pool.diodes["mpn"].tolist()
-    offers = _offers(pool, {m: (m, None) for m in set(tr) | set(di)})
-    t_offers, d_offers = [offers[m] for m in tr], [offers[m] for m in di]
-    transistor_price = np.array([least_unit_price(o) for o in t_offers], dtype=float)
-    diode_price = np.array([least_unit_price(o) for o in d_offers], dtype=float)
+    both = offers_by_part(pool, tr + di)
+    t_offers, d_offers = both[:len(tr)], both[len(tr):]
+    transistor_price, diode_price = least_prices(t_offers), least_prices(d_offers)
     transistor_price[pool.transistors["mpn"].isin(forbidden).to_numpy()] = np.inf
     diode_price[pool.diodes["mpn"].isin(forbidden).to_numpy()] = np.inf
     fees = stage_rules.FeeFloors(np.full(n, np.inf), np.full(len(tr), np.inf), np.full(len(di), np.inf))
@@ -667,7 +679,7 @@ def _fee_floors(problem, needs: dict, at: np.ndarray, n: int, t_offers: list, d_
 def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs, forbidden: tuple[str, ...]) -> stage_rules.SinkCosts:
     """The :class:`~partpick.evaluate.stage.SinkCosts` of the heatsink candidates ``hs`` (assemble's table; None: none)."""
     from partpick.optimize.buying import cheapest_purchase
-    from partpick.optimize.problem import _offers
+    from partpick.optimize.problem import offers_by_part
     from partpick.spec import order_units
 
     sink = cores.sink
@@ -679,9 +691,8 @@ def _sink_costs(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, hs,
     names = sorted({p for m in mounts for p in m})
     code = {p: i for i, p in enumerate(names)}
     holds = np.array([[p in m for p in names] for m in mounts], dtype=bool).reshape(len(hs), len(names))
-    offers = _offers(pool, {m: (m, None) for m in set(hs["mpn"])})
-    cost = np.array([cheapest_purchase(offers[m], math.ceil(order_units(float(n), spec.order.factor)))
-                     for m, n in zip(hs["mpn"], hs["per_board"])], dtype=float)
+    cost = np.array([cheapest_purchase(o, math.ceil(order_units(float(n), spec.order.factor)))
+                     for o, n in zip(offers_by_part(pool, hs["mpn"]), hs["per_board"])], dtype=float)
     cost[hs["mpn"].isin(forbidden).to_numpy()] = np.inf
     class_i = np.array([class_of[class_key(float(c))] for c in hs["rth_class"]], dtype=np.int64)
     if cores.core is not None:

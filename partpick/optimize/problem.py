@@ -329,14 +329,18 @@ def _offers(pool: Pool, lines: dict[str, tuple[str, float | None]]) -> dict[str,
     return {key: by_source.get(src, []) for key, (src, _v) in lines.items()}
 
 
-def price_floor(pool: Pool, mpns) -> np.ndarray:
-    """The least unit price at which each of ``mpns`` can be bought (``inf``: no usable offer), from :func:`_offers`."""
-    from partpick.optimize.buying import least_unit_price
-
+def offers_by_part(pool: Pool, mpns) -> list[list[Offer]]:
+    """The offers of each of ``mpns``, in order, from :func:`_offers` (one pass for all of them)."""
     names = list(mpns)
     offers = _offers(pool, {m: (m, None) for m in set(names)})
-    least = {m: least_unit_price(o) for m, o in offers.items()}
-    return np.array([least[m] for m in names], dtype=float)
+    return [offers[m] for m in names]
+
+
+def least_prices(offers_of: list[list[Offer]]) -> np.ndarray:
+    """The least unit price of each list of offers (``inf``: no usable offer)."""
+    from partpick.optimize.buying import least_unit_price
+
+    return np.array([least_unit_price(o) for o in offers_of], dtype=float)
 
 
 def _counts(frame: pd.DataFrame) -> dict[str, int]:

@@ -505,10 +505,7 @@ def _mask(offers, code: dict[str, int]) -> int:
 
 def _fee_floors_one_seller(problem: Problem) -> dict[str, np.ndarray]:
     """The fallback of :func:`fee_floors`: each needed line has an open seller, so its cheapest fee is paid."""
-    cheapest = {}
-    for line, offers in problem.line_offers.items():
-        fees = [float(problem.fees[s]) for s, *_rest in usable(offers) if s in problem.fees]
-        cheapest[line] = min(fees, default=math.inf)
+    cheapest = dict(zip(problem.line_offers, cheapest_fee(problem, list(problem.line_offers.values())).tolist()))
     own = {g: np.array([max((cheapest.get(line, math.inf) for line, _q, _r in usage), default=0.0) for usage in grp.usage])
            for g, grp in problem.groups.items()}
     least = {g: float(v.min()) if len(v) else math.inf for g, v in own.items()}

@@ -13,7 +13,7 @@ process, so that the peak memory belongs to that size alone. Stages, each the
 median over ``--repeat`` runs:
 
 - ``load``: :func:`partpick.catalog.loader.load_catalog`;
-- ``evaluate``: ``make_pool`` + ``Targets.from_spec`` + ``evaluate_stage``;
+- ``evaluate``: ``make_pool`` + ``Targets.from_spec`` + ``stage_cores`` + ``evaluate_stage``;
 - ``assemble``: :func:`partpick.optimize.problem.assemble`;
 - ``build`` and ``solve``: :func:`partpick.optimize.milp.solve` builds the PuLP
   model and solves it in one call (``build+solve``); the time spent inside
@@ -97,7 +97,7 @@ import pulp  # noqa: E402
 from bench.make_catalog import SIZES, size_counts, write_catalog  # noqa: E402
 from partpick.catalog.loader import Catalog, load_catalog  # noqa: E402
 from partpick.evaluate.context import Targets, make_pool  # noqa: E402
-from partpick.evaluate.stage import evaluate_stage  # noqa: E402
+from partpick.evaluate.stage import evaluate_stage, stage_cores  # noqa: E402
 from partpick.optimize import milp  # noqa: E402
 from partpick.optimize.design import BoundedSearch, DesignResult, _bounded_rounds, _by_choice, check_chosen, prepare, run_bounded  # noqa: E402
 from partpick.optimize.milp import Offer, Problem, ceil_units  # noqa: E402
@@ -180,20 +180,21 @@ def staged_run(spec: Spec, folder: Path, solver: str = "cbc", time_limit: float 
 
     t = time.perf_counter()
     REACHED[0] = "evaluate"
+    pool = make_pool(spec, catalog)
+    targets = Targets.from_spec(spec)
+    cores = stage_cores(spec, pool, targets)
     if spec.order.objective == "cost":
-        chosen = _by_choice(spec, catalog, (), "spec", time_limit)
+        chosen = _by_choice(spec, catalog, pool, targets, cores, time_limit)
         if chosen is not None:
             s["evaluate"] = time.perf_counter() - t
             return _bounded_run(spec, catalog, s, None, solver, time_limit, chosen)
-    pool = make_pool(spec, catalog)
-    targets = Targets.from_spec(spec)
     try:
-        stage = evaluate_stage(spec, pool, targets)
+        stage = evaluate_stage(spec, pool, targets, cores=cores)
     except SizeLimitError as exc:
         if spec.order.objective != "cost":
             raise
         s["evaluate"] = time.perf_counter() - t
-        return _bounded_run(spec, catalog, s, exc, solver, time_limit)
+        return _bounded_run(spec, catalog, s, exc, solver, time_limit, given=(pool, targets, cores))
     s["evaluate"] = time.perf_counter() - t
 
     t = time.perf_counter()
@@ -231,13 +232,14 @@ def staged_run(spec: Spec, folder: Path, solver: str = "cbc", time_limit: float 
 
 
 def _bounded_run(spec: Spec, catalog: Catalog, s: dict[str, float], too_large: SizeLimitError | None, solver: str,
-                 time_limit: float | None, chosen: tuple | None = None) -> StagedRun:
+                 time_limit: float | None, chosen: tuple | None = None, given: tuple | None = None) -> StagedRun:
     """What :func:`partpick.optimize.design.run` does by cost bound, timed as one stage.
 
     ``chosen``: the route by choice's (spec, pool, targets, search), whose
     rounds (:func:`~partpick.optimize.design._bounded_rounds`) ``bounded
-    search`` times; otherwise :func:`run_bounded` past the size limit, its
-    relaxed table and bounds included. ``solve`` is the time inside the
+    search`` times; otherwise :func:`run_bounded` past the size limit (on
+    the staged run's pool and core configurations, ``given``), its relaxed
+    table and bounds included. ``solve`` is the time inside the
     solver; the whole-table stages it replaces are NaN.
     """
     inside = [0.0]
@@ -247,7 +249,7 @@ def _bounded_run(spec: Spec, catalog: Catalog, s: dict[str, float], too_large: S
         if chosen is not None:
             result = _bounded_rounds(*chosen, solver=solver, time_limit=time_limit)
         else:
-            result = run_bounded(spec, catalog, solver=solver, time_limit=time_limit, too_large=too_large)
+            result = run_bounded(spec, catalog, solver=solver, time_limit=time_limit, too_large=too_large, given=given)
     s["bounded search"] = time.perf_counter() - t
     s["solve"] = inside[0]
     for k in ("assemble", "build", "build+solve", "check"):

@@ -19,7 +19,7 @@ from partpick.optimize import design
 from partpick.optimize.design import design_without, forbid_parts, option_sources, prepare, proven_whole, run
 from partpick.optimize.explain import _with, alternatives
 from partpick.optimize.milp import rules_kept, solve
-from partpick.optimize.problem import assemble, price_floor
+from partpick.optimize.problem import assemble, least_prices, offers_by_part
 from partpick.optimize.revise import stock_risk
 from partpick.optimize.sweep import spec_at
 from partpick.spec import load_spec
@@ -320,7 +320,7 @@ def _tables(spec, catalog, core_lb_of, threshold):
     targets = Targets.from_spec(spec)
     cores = stage.stage_cores(spec, pool, targets)
     whole = stage.evaluate_stage(spec, pool, targets, cores=cores)
-    tr, dio = price_floor(pool, pool.transistors["mpn"]), price_floor(pool, pool.diodes["mpn"])
+    tr, dio = least_prices(offers_by_part(pool, pool.transistors["mpn"])), least_prices(offers_by_part(pool, pool.diodes["mpn"]))
     fb = stage.FeedBound(core_lb_of(len(cores.core)), threshold, tr, dio, 1.0)
     return whole, stage.evaluate_stage(spec, pool, targets, feed_bound=fb, cores=cores)
 
