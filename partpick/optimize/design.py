@@ -180,7 +180,8 @@ def run(
     the table by cost bound even when the whole would fit (the same optimum,
     sooner), unless ``whole`` (what needs every configuration: several
     designs ranked, a forced part) or ``forced`` is given; when that search
-    finds no design, the whole table is built to say why.
+    finds no design, the whole table is built to say why (:func:`_why_none`),
+    not solved again.
     """
     from partpick.optimize.milp import _clock
 
@@ -198,7 +199,7 @@ def run(
             result = _bounded_rounds(*chosen, solver=solver, time_limit=time_limit, started=started)
             if result.status != "infeasible":
                 return result
-            # No design: the whole table says why, configuration by configuration.
+            return _why_none(result, spec, catalog, pool, targets, cores, solver)
     try:
         result = _prepared(spec, catalog, pool, targets, cores)
     except SizeLimitError as exc:
@@ -238,6 +239,29 @@ def _by_choice(spec: Spec, catalog: Catalog, pool: Pool, targets: Targets, cores
         return None
     search.fits = True
     return spec, pool, targets, search
+
+
+def _why_none(bounded: DesignResult, spec: Spec, catalog: Catalog, pool: Pool, targets: Targets, cores: StageCores,
+              solver: str) -> DesignResult:
+    """The whole table of a spec whose search by choice found no design, marked infeasible without solving it again.
+
+    The search returns no design only from a table that holds every row
+    (no core configuration cut by its threshold, see :func:`_bounded_rounds`),
+    so the whole table has none either; it is built only to say why,
+    configuration by configuration (its funnel and near misses). Solving it
+    again would add nothing but time (and a second run of ``--time-limit``).
+    When the whole table is past the size limit after all (its feed options
+    are not counted in :func:`_by_choice`), the search's own result stands.
+    """
+    from partpick.optimize.milp import _infeasible
+
+    try:
+        result = _prepared(spec, catalog, pool, targets, cores)
+    except SizeLimitError:
+        return bounded
+    if result.status == "prepared":
+        result = replace(result, solution=_infeasible(solver), status="infeasible")
+    return result
 
 
 def _cost_spec(spec: Spec) -> Spec:

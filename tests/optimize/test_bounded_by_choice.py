@@ -9,6 +9,8 @@ rows; the other cases lower ``CHOICE_ROWS`` to take the route.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 from conftest import DEMO_CATALOG, ROOT
@@ -253,3 +255,47 @@ def test_the_funnel_counts_every_core_once_and_cores_without_any_design_have_non
             assert solve(problem).status == "infeasible"
         tried += 1
     assert tried > 0
+
+
+def test_no_design_by_choice_gives_the_whole_tables_reasons_without_a_second_solve(catalog, monkeypatch) -> None:
+    """A search by choice returns no design only from a table holding every row, so the whole table is built to say
+    why and is not solved again (no second solver run, no second ``--time-limit``).
+
+    The search's answer is replaced by "no design" here; the run must then
+    return the whole table (no cost bound), marked infeasible, with its
+    reasons, and call the solver no more.
+    """
+    from partpick.optimize.design import infeasible_cause
+    from partpick.optimize.milp import _infeasible
+
+    _low_choice(monkeypatch)
+    spec = CASES["bench 22 W current source"]()
+    real = design._bounded_rounds
+    seen = {}
+
+    def none_found(*args, **kwargs):
+        result = real(*args, **kwargs)
+        seen["rows"] = len(result.stage.configs)
+        return replace(result, solution=_infeasible("cbc"), status="infeasible", check=None)
+
+    solves = []
+    real_finish = design.finish
+
+    def counted(*args, **kwargs):
+        solves.append(1)
+        return real_finish(*args, **kwargs)
+
+    monkeypatch.setattr(design, "_bounded_rounds", none_found)
+    monkeypatch.setattr(design, "finish", counted)
+    result = run(spec, catalog, time_limit=30.0)
+    rounds = len(solves)
+    assert result.status == "infeasible" and result.stage.cost_bound is None
+    assert len(result.stage.configs) > seen["rows"]  # the whole table, not the search's last one
+    assert result.solution is not None and result.solution.status == "infeasible"
+    assert result.assembly is not None and result.assembly.problem is not None
+    assert any("no combination meets the couplings" in line for line in infeasible_cause(result))
+    # The rounds solved their tables; nothing was solved after them.
+    monkeypatch.setattr(design, "_bounded_rounds", real)
+    solves.clear()
+    run(spec, catalog, time_limit=30.0)
+    assert rounds == len(solves) > 0
