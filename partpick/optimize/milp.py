@@ -9,8 +9,9 @@ it, so passives of one family and value in several roles merge into one line.
 
 Buying, per line l and offer row r (a supplier's price break):
 ``q[l,r]`` integer units, ``z[l,r]`` binary, ``max(min_qty, moq) z <= q <=
-stock z``, at most one break per (line, supplier), ``sum_r q[l,r] >= need_l``,
-and ``y[s] >= z[l,r]`` for the supplier's fixed order fee. Buying up to a
+stock z``, at most one break per (line, supplier), ``sum_r cover[l,r] >= need_l``
+with ``cover = min(q, need_max z)`` (see :func:`solve_model`), and
+``y[s] >= z[l,r]`` for the supplier's fixed order fee. Buying up to a
 higher break falls out by itself, since q may exceed the need. A break that
 another break of the same supplier beats on every useful quantity gets no
 variables (:func:`~partpick.optimize.buying.useful_breaks`).
@@ -987,7 +988,7 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     cost_terms = [(y[s], problem.fees[s]) for s in suppliers]
     supplier_tie = _supplier_tie(problem)
     buy: list[tuple[str, Offer, pulp.LpVariable]] = []
-    extra: list[tuple[pulp.LpVariable, pulp.LpVariable, int]] = []  # (z, cover, need_max) of each buy
+    extra: list[tuple[pulp.LpVariable, int]] = []  # (z, need_max) of each buy
     for l_i, line in enumerate(sorted(need_expr)):
         offers = problem.line_offers.get(line, [])
         # No plan buys more than the largest need, except to reach a break or MOQ.
@@ -1002,22 +1003,23 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             m += q - low * z >= 0
             m += q - cap * z <= 0
             m += z - y[off.supplier] <= 0
-            # Cover: the units of this purchase that count toward the need, at
-            # most the line's largest need when the break is used. Every plan
-            # has such a cover (a purchase covers min(q, need_max) units), and
-            # it ties the share of the need a supplier serves to its z and y,
-            # so the relaxation cannot serve a whole need from a break it
-            # opens by a fraction (the strong facility-location form).
-            c = pulp.LpVariable(f"c_{l_i}_{r_i}", lowBound=0)
-            m += c - q <= 0
-            m += c - need_max * z <= 0
-            covers.append((c, 1.0))
+            # Cover: the units of this purchase that count toward the need,
+            # min(q, need_max * z) (at most the line's largest need when the
+            # break is used). It ties the share of the need a supplier serves
+            # to its z and y, so the relaxation cannot serve a whole need from
+            # a break it opens by a fraction (the strong facility-location
+            # form). The bounds above settle which of the two is smaller, for
+            # fractional z too, so the cover needs no variable of its own:
+            # below need_max the purchase is capped at need_max * z
+            # (cap <= need_max), from it on it buys at least low * z >=
+            # need_max * z.
+            covers.append((q, 1.0) if low < need_max else (z, float(need_max)))
             by_supplier.setdefault(off.supplier, []).append(z)
             # Price plus the sub-cent preference for the earlier supplier.
             cost_terms.append((q, off.unit_price + supplier_tie[off.supplier]))
             qs.append((q, 1.0))
             buy.append((line, off, q))
-            extra.append((z, c, need_max))
+            extra.append((z, need_max))
         # A line's offers are used only when some chosen option needs the line
         # (at most one break per supplier); this also tightens the relaxation.
         users_expr = [(v, -1.0) for v in users[line]]
@@ -1106,12 +1108,11 @@ def _set_start(start: Solution, x, y, buy, extra, classes) -> None:
     used = set(start.suppliers_used)
     for s, v in y.items():
         v.setInitialValue(1 if s in used else 0)
-    bought = start_purchases(start.purchases, [(line, off, need_max) for (line, off, _q), (_z, _c, need_max) in zip(buy, extra)])
-    for (line, off, q), (z, c, need_max) in zip(buy, extra):
+    bought = start_purchases(start.purchases, [(line, off, need_max) for (line, off, _q), (_z, need_max) in zip(buy, extra)])
+    for (line, off, q), (z, _need_max) in zip(buy, extra):
         qty = bought.get((line, off.supplier, off.min_qty), 0)
         q.setInitialValue(qty)
         z.setInitialValue(1 if qty else 0)
-        c.setInitialValue(min(qty, need_max))
 
 
 def start_purchases(purchases: list[Purchase], breaks: list[tuple[str, Offer, int]]) -> dict[tuple[str, str, int], int]:
