@@ -9,9 +9,10 @@ it, so passives of one family and value in several roles merge into one line.
 
 Buying, per line l and offer row r (a supplier's price break):
 ``q[l,r]`` integer units, ``z[l,r]`` binary, ``max(min_qty, moq) z <= q <=
-stock z``, at most one break per (line, supplier), ``sum_r cover[l,r] >= need_l``
-with ``cover = min(q, need_max z)`` (see :func:`solve_model`), and
-``y[s] >= z[l,r]`` for the supplier's fixed order fee. Buying up to a
+stock z``, ``sum_r cover[l,r] >= need_l`` with ``cover = min(q, need_max z)``
+(see :func:`solve_model`), and ``y[s] >= sum of z[l,r] over the supplier's
+breaks of the line`` (at most one break per line and supplier, and the
+supplier's fixed order fee paid). Buying up to a
 higher break falls out by itself, since q may exceed the need. A break that
 another break of the same supplier beats on every useful quantity gets no
 variables (:func:`~partpick.optimize.buying.useful_breaks`).
@@ -1002,7 +1003,6 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             q = pulp.LpVariable(f"q_{l_i}_{r_i}", lowBound=0, upBound=cap, cat="Integer")
             m += q - low * z >= 0
             m += q - cap * z <= 0
-            m += z - y[off.supplier] <= 0
             # Cover: the units of this purchase that count toward the need,
             # min(q, need_max * z) (at most the line's largest need when the
             # break is used). It ties the share of the need a supplier serves
@@ -1023,9 +1023,11 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         # A line's offers are used only when some chosen option needs the line
         # (at most one break per supplier); this also tightens the relaxation.
         users_expr = [(v, -1.0) for v in users[line]]
-        for zs in by_supplier.values():
-            if len(zs) > 1:
-                m += pulp.lpSum(zs) <= 1
+        for s, zs in by_supplier.items():
+            # At most one break per supplier, and only from a supplier ordered
+            # from: one row per (line, supplier), tighter than z <= y per break
+            # and sum z <= 1 apart, which it implies.
+            m += pulp.LpAffineExpression([(z, 1.0) for z in zs] + [(y[s], -1.0)]) <= 0
             m += pulp.LpAffineExpression([(z, 1.0) for z in zs] + users_expr) <= 0
         # Each group's chosen user of the line needs an order with a supplier
         # that offers it: valid for every integer plan, and it makes the
