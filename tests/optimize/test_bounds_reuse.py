@@ -127,24 +127,36 @@ def test_a_start_design_leaves_the_answer_as_it_was(problem: Problem, data) -> N
 
 def test_a_start_design_is_proven_in_one_solve(monkeypatch) -> None:
     # crowded_line_problem: without a start the first threshold (7) holds a
-    # and c, which have no design; that set is not solved again as the
-    # threshold widens, and the next solve holds d: two solves. From the start
-    # design (a, d) at 303 the first threshold holds every option: one solve.
+    # and c, which have no design; the model without prices says so (no full
+    # solve), that set is not asked again as the threshold widens, and the
+    # next threshold holds d: one full solve. From the start design (a, d) at
+    # 303 the first threshold holds every option: one full solve, and nothing
+    # asked without prices (a design is known).
     from partpick.optimize import milp
 
     p = crowded_line_problem()
     sizes: list[int] = []
-    real = milp._solve_reduced
+    bare: list[tuple[int, bool]] = []
+    real, real_bare = milp._solve_reduced, milp._any_design_model
 
     def spy(problem, keep, *a, **k):
         sizes.append(len(keep["g2"]))
         return real(problem, keep, *a, **k)
 
+    def spy_bare(problem, *a, **k):
+        found = real_bare(problem, *a, **k)
+        bare.append((len(problem.groups["g2"]), found))
+        return found
+
     monkeypatch.setattr(milp, "_solve_reduced", spy)
+    monkeypatch.setattr(milp, "_any_design_model", spy_bare)
     plain = solve(p, "cbc")
     assert (plain.status, plain.choice, plain.total) == ("optimal", {"g1": 0, "g2": 1}, pytest.approx(303.0))
-    assert sizes == [1, 2]
+    assert sizes == [2]
+    assert bare == [(1, False), (2, True)]
     sizes.clear()
+    bare.clear()
     again = solve(p, "cbc", start=plain)
     assert (again.status, again.choice, again.total) == ("optimal", {"g1": 0, "g2": 1}, pytest.approx(303.0))
     assert sizes == [2]
+    assert bare == []

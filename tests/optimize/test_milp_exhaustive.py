@@ -1059,16 +1059,23 @@ def test_the_time_limit_counts_the_cost_bounds(monkeypatch) -> None:
 def test_no_design_when_the_time_limit_is_spent_is_an_error(monkeypatch) -> None:
     # Every solve is made to report "infeasible", as a threshold that holds no design
     # does, while the clock runs past the limit: the loop must stop with the time-limit
-    # error before widening again, never report the problem infeasible.
+    # error before widening again, never report the problem infeasible. A threshold
+    # is first asked without prices (no design known yet), so that model's solve
+    # moves the clock too.
     now = [0.0]
-    real = milp.solve_model
+    real, real_bare = milp.solve_model, milp._any_design_model
 
     def fake(problem, tie, solver="cbc", time_limit=None, start=None):
         now[0] += 20.0
         return real(problem, tie, solver, None, start=start)
 
+    def fake_bare(problem, solver, time_limit):
+        now[0] += 20.0
+        return real_bare(problem, solver, None)
+
     monkeypatch.setattr(milp, "_clock", lambda: now[0])
     monkeypatch.setattr(milp, "solve_model", fake)
+    monkeypatch.setattr(milp, "_any_design_model", fake_bare)
     p = _two_solve_problem(monkeypatch)
     monkeypatch.setattr(milp, "_found", lambda m, t: False)
     with pytest.raises(SolverError, match="no design within the time limit"):

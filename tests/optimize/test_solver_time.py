@@ -1,0 +1,91 @@
+"""How the search spends solver time: thresholds without a design, and a solver run past its limit.
+
+Hand-worked cases; the exactness of the search against brute force is
+checked in ``test_milp_exhaustive.py`` and ``test_prune.py``.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+
+import pulp
+import pytest
+from solver_fakes import fake_cbc
+
+from partpick.errors import SolverTimeout
+from partpick.optimize import milp
+from partpick.optimize.milp import Group, Offer, Problem
+
+
+def test_a_threshold_without_a_design_is_answered_without_prices(monkeypatch) -> None:
+    """Hand-worked: g1 chooses a (line L) or b (line B, 10.00), g2 c (line L) or d (line D, 10.00); L costs 1.00 and
+    one unit is in stock. a and c each bound at 1.00, so the first threshold (the floor 2.00 plus 1.00) holds a and c
+    alone, which would need two units of L: no design. The search learns that from the model without prices, fees or
+    purchases and solves the full model only where a design exists: a + d or b + c, 11.00 (a first, by key order)."""
+    g1 = Group("g1", ["a", "b"], [[("L", 1.0, "r")], [("B", 1.0, "r")]])
+    g2 = Group("g2", ["c", "d"], [[("L", 1.0, "s")], [("D", 1.0, "s")]])
+    offers = {"L": [Offer("S1", 1, 1.0, 1, 1)], "B": [Offer("S1", 1, 10.0, 10, 1)], "D": [Offer("S1", 1, 10.0, 10, 1)]}
+    p = Problem({"g1": g1, "g2": g2}, [], offers, {"S1": 0.0}, 1.0)
+    log = []
+    full, bare = milp.solve_model, milp._any_design_model
+
+    def counted_full(q, *args, **kwargs):
+        out = full(q, *args, **kwargs)
+        log.append(("full", out.status))
+        return out
+
+    def counted_bare(q, *args, **kwargs):
+        out = bare(q, *args, **kwargs)
+        log.append(("without prices", out))
+        return out
+
+    monkeypatch.setattr(milp, "solve_model", counted_full)
+    monkeypatch.setattr(milp, "_any_design_model", counted_bare)
+    sol = milp.solve(p, "cbc")
+    assert sol.status == "optimal" and sol.total == pytest.approx(11.0)
+    assert sol.choice == {"g1": 0, "g2": 1}
+    assert ("without prices", False) in log
+    assert ("full", "infeasible") not in log
+    assert log[-1] == ("full", "optimal")
+
+
+def _waits() -> str:
+    """A fake CBC program that keeps its arguments (the solve's folder among them) and waits a minute."""
+    return f"exec '{sys.executable}' -c 'import time; time.sleep(60)' \"$@\"\n"
+
+
+def test_a_cbc_run_past_its_time_limit_is_stopped(tmp_path, monkeypatch) -> None:
+    """CBC heeds its limit only between nodes; a program still running past it (plus the grace) is stopped, and the
+    solve says it ran out of time, not that the solver crashed."""
+    monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, _waits())))
+    monkeypatch.setattr(milp, "OVERRUN_GRACE_S", 0.2)
+    m = pulp.LpProblem("t", pulp.LpMinimize)
+    x = pulp.LpVariable("x", 0, 1, cat="Binary")
+    m += x
+    m += x >= 0
+    began = time.monotonic()
+    with pytest.raises(SolverTimeout) as info:
+        milp._run(m, milp._solver("cbc", 0.5), "cbc")
+    assert time.monotonic() - began < 20.0  # the fake would wait 60 s
+    assert info.value.time_limit == 0.5
+    assert milp._children_naming("partpick-solve-") == []
+
+
+def test_without_a_time_limit_no_watchdog_runs(monkeypatch) -> None:
+    started = []
+    real = milp._Watchdog.start
+
+    def spy(self):
+        started.append(self)
+        return real(self)
+
+    monkeypatch.setattr(milp._Watchdog, "start", spy)
+    m = pulp.LpProblem("t", pulp.LpMinimize)
+    x = pulp.LpVariable("x", 0, 1, cat="Binary")
+    m += x
+    m += x >= 0
+    assert milp._run(m, milp._solver("cbc", None), "cbc") == pulp.LpStatusOptimal
+    assert started == []
+    assert milp._run(m, milp._solver("cbc", 30.0), "cbc") == pulp.LpStatusOptimal
+    assert len(started) == 1 and not started[0].fired
