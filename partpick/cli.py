@@ -19,6 +19,7 @@ from pathlib import Path
 
 from partpick import __version__
 from partpick.errors import InputError, SolverError, UsageError
+from partpick.procs import child_pids
 
 EXIT_OK, EXIT_USAGE, EXIT_INPUT, EXIT_INFEASIBLE = 0, 2, 3, 4
 
@@ -128,16 +129,11 @@ def _stop_children() -> None:
     A terminal's Ctrl-C reaches the whole process group, the solver
     included; a SIGTERM sent to partpick alone does not.
     """
-    for task in Path(f"/proc/{os.getpid()}/task").glob("*/children"):
+    for pid in child_pids():
         try:
-            pids = [int(p) for p in task.read_text().split()]
-        except (OSError, ValueError):
-            continue
-        for pid in pids:
-            try:
-                os.kill(pid, signal.SIGTERM)
-            except OSError:
-                pass
+            os.kill(pid, signal.SIGTERM)
+        except OSError:
+            pass
 
 
 def main(argv: list[str] | None = None) -> int:

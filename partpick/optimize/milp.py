@@ -35,13 +35,13 @@ import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
-from pathlib import Path
 
 import numpy as np
 import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
 from partpick.optimize.buying import cheapest_purchase, smallest_qty, usable, useful_breaks
+from partpick.procs import child_pids
 from partpick.spec import order_units
 
 #: Weight per rank step of the tie-break; the sum over a group stays below 1e-4.
@@ -222,18 +222,13 @@ class _Watchdog:
 def _children_naming(text: str) -> list[int]:
     """Child processes of this one whose command line contains ``text`` (Linux; none elsewhere)."""
     out = []
-    for task in Path(f"/proc/{os.getpid()}/task").glob("*"):
+    for pid in child_pids():
         try:
-            pids = [int(p) for p in (task / "children").read_text().split()]
-        except (OSError, ValueError):
+            with open(f"/proc/{pid}/cmdline", "rb") as f:
+                if text.encode() in f.read():
+                    out.append(pid)
+        except OSError:
             continue
-        for pid in pids:
-            try:
-                with open(f"/proc/{pid}/cmdline", "rb") as f:
-                    if text.encode() in f.read():
-                        out.append(pid)
-            except OSError:
-                continue
     return out
 
 
