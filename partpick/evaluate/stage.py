@@ -235,14 +235,27 @@ class FeeFloors:
     sets: np.ndarray | None = None  # per set: its supplier bits
     transistor_mask: np.ndarray | None = None  # per pool.transistors row: its sellers' bits
     diode_mask: np.ndarray | None = None
+    _seen: dict = field(default_factory=dict, repr=False, compare=False)  # floor by the source parts' seller bits
 
     def floor(self, npn_i: int, pnp_i: int, d_i: int) -> np.ndarray:
-        """Per core configuration: the fees of a design with these source transistors and reference."""
+        """Per core configuration: the fees of a design with these source transistors and reference.
+
+        With few suppliers the figure depends on the parts only through their
+        sellers, so it is computed once per (sellers of each part) and
+        returned read-only.
+        """
         if self.ok is None:
             return np.maximum(self.core, max(self.transistor_fee[npn_i], self.transistor_fee[pnp_i], self.diode_fee[d_i]))
-        sets = self.sets
-        req = ((sets & self.transistor_mask[npn_i]) != 0) & ((sets & self.transistor_mask[pnp_i]) != 0) & ((sets & self.diode_mask[d_i]) != 0)
-        return first_fee(self.ok & req[None, :], self.fee, self.key)
+        masks = (int(self.transistor_mask[npn_i]), int(self.transistor_mask[pnp_i]), int(self.diode_mask[d_i]))
+        out = self._seen.get(masks)
+        if out is None:
+            sets = self.sets
+            req = ((sets & masks[0]) != 0) & ((sets & masks[1]) != 0) & ((sets & masks[2]) != 0)
+            # Only the sets that sell the three parts, still in ascending fee order.
+            out = first_fee(self.ok[:, req], self.fee[req], self.key)
+            out.setflags(write=False)
+            self._seen[masks] = out
+        return out
 
 
 def first_fee(ok: np.ndarray, fee: np.ndarray, key: np.ndarray) -> np.ndarray:

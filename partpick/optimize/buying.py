@@ -32,7 +32,7 @@ def usable(offers: Iterable[Offer]) -> list[tuple[str, int, float, int]]:
     """(supplier, smallest quantity, unit price, stock) of the offers that can be bought at all."""
     out = []
     for off in offers:
-        low = smallest_qty(off)
+        low = max(off.min_qty, off.moq, 1)  # smallest_qty, inline: called for every line round after round
         if low <= off.stock:
             out.append((off.supplier, low, off.unit_price, off.stock))
     return out
@@ -47,8 +47,10 @@ def cheapest_purchase(offers: list[Offer], need: int) -> float:
     """Lowest parts cost of at least ``need`` units of one line, order fees left out.
 
     At most one price break per supplier, each bought between its smallest
-    quantity and its stock (the MILP's buying rules); a dynamic programme over
-    suppliers on the units held (capped at ``need``). Above
+    quantity and its stock (the MILP's buying rules); when every break alone
+    holds the need, the one cheapest purchase on a single break (see
+    :func:`cheapest_of_rows`), otherwise a dynamic programme over suppliers
+    on the units held (capped at ``need``). Above
     :data:`EXACT_NEED_MAX` units it returns the lower bound ``need x`` the
     cheapest unit price instead. ``inf`` when the stock cannot cover the need.
     """
@@ -65,6 +67,13 @@ def cheapest_of_rows(rows: tuple[tuple[str, int, float, int], ...], need: int) -
         return math.inf
     if need > EXACT_NEED_MAX:
         return need * min(p for _s, _low, p, _st in rows) if sum(st for *_x, st in rows) >= need else math.inf
+    if all(st >= need for *_x, st in rows):
+        # Every break alone holds the need: one purchase on the break with the
+        # least price x max(its smallest quantity, need) is cheapest. Any plan
+        # buys q_i >= low_i on breaks with sum q_i >= need; with p_1 its least
+        # price among them, it costs at least p_1 x sum q_i >= p_1 x max(low_1, need),
+        # which break 1 alone buys (its stock holds both).
+        return float(min(p * max(low, need) for _s, low, p, _st in rows))
     best = np.full(need + 1, np.inf)
     best[0] = 0.0
     held = np.arange(need + 1)[:, None]

@@ -40,7 +40,7 @@ import numpy as np
 import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
-from partpick.optimize.buying import cheapest_purchase, smallest_qty, usable, useful_breaks
+from partpick.optimize.buying import cheapest_of_rows, smallest_qty, usable, useful_breaks
 from partpick.procs import child_pids
 from partpick.spec import order_units
 
@@ -1085,8 +1085,8 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
         for r_i, off, low, cap in _breaks(offers, need_max, supplier_tie):
             z = pulp.LpVariable(f"z_{l_i}_{r_i}", cat="Binary")
             q = pulp.LpVariable(f"q_{l_i}_{r_i}", lowBound=0, upBound=cap, cat="Integer")
-            m += q - low * z >= 0
-            m += q - cap * z <= 0
+            m += pulp.LpAffineExpression([(q, 1.0), (z, -float(low))]) >= 0
+            m += pulp.LpAffineExpression([(q, 1.0), (z, -float(cap))]) <= 0
             # Cover: the units of this purchase that count toward the need,
             # min(q, need_max * z) (at most the line's largest need when the
             # break is used). It ties the share of the need a supplier serves
@@ -1126,7 +1126,8 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             # for every integer plan; it keeps the relaxation from buying
             # fractions of a high break at its low price.
             spend = [(q, off.unit_price) for _l, off, q in buy[first_buy:]]
-            least = [(v, -c) for v, c in ((v, cheapest_purchase(offers, ceil_units(a))) for v, a in need_expr[line]) if math.isfinite(c)]
+            rows = tuple(usable(offers))
+            least = [(v, -c) for v, c in ((v, cheapest_of_rows(rows, ceil_units(a))) for v, a in need_expr[line]) if math.isfinite(c)]
             m += pulp.LpAffineExpression(spend + least) >= 0, f"spend_{l_i}"
     cost = pulp.LpAffineExpression(cost_terms)
     tie_expr = pulp.LpAffineExpression(tie_terms)

@@ -38,7 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partpick.optimize.buying import cheapest_of_rows, cheapest_purchase, least_unit_price, rows_no_dearer, usable
+from partpick.optimize.buying import cheapest_of_rows, least_unit_price, rows_no_dearer, usable
 from partpick.optimize.milp import Coupling, Group, Problem, set_classes
 from partpick.spec import order_units
 
@@ -181,7 +181,8 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
     needs = needs if needs is not None else _all_needs(problem)
     users = _line_users(needs)
     memo: dict[tuple[str, int], float] = {}
-    pmin = {line: least_unit_price(offers) for line, offers in problem.line_offers.items()}
+    pmin: dict[str, float] = {}  # shared lines' least unit prices, as they are met
+    rows: dict[str, tuple] = {}  # lines' usable offer rows, as they are met
     out = {}
     for g, grp in problem.groups.items():
         opt, ids, names, units = needs[g]
@@ -192,10 +193,14 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
             if len(users[line]) == 1:
                 key = (line, math.ceil(q))
                 if key not in memo:
-                    memo[key] = cheapest_purchase(problem.line_offers.get(line, []), key[1])
+                    if line not in rows:
+                        rows[line] = tuple(usable(problem.line_offers.get(line, [])))
+                    memo[key] = cheapest_of_rows(rows[line], key[1])
                 price[j] = memo[key]
             else:
-                price[j] = q * pmin.get(line, math.inf)
+                if line not in pmin:
+                    pmin[line] = least_unit_price(problem.line_offers.get(line, []))
+                price[j] = q * pmin[line]
         out[g] = _sum_rows(opt, back, price[:, None], len(grp))[:, 0] + _weighted_changes(problem, g)
     return out
 
@@ -573,6 +578,8 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
     pick: dict[str, tuple[np.ndarray, np.ndarray]] = {}  # per group: (option, key) of each of its needs
+    rows: dict[str, tuple] = {}  # per line: its usable offer rows
+    held = tuple(suppliers)
     for g, (opt, ids, names, units) in needs.items():
         distinct, back = _distinct_needs(ids, units)
         key_of = np.empty(len(distinct), dtype=np.int64)
@@ -581,7 +588,9 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
             key = (line, math.ceil(q)) if len(users[line]) == 1 else (line, q, "shared")
             if key not in keys:
                 keys[key] = len(figures)
-                figures.append(_over_sets(problem.line_offers.get(line, []), suppliers, key))
+                if line not in rows:
+                    rows[line] = tuple(usable(problem.line_offers.get(line, [])))
+                figures.append(_over_sets_of(rows[line], held, len(key) == 3, key[1]))
             key_of[j] = keys[key]
         pick[g] = (opt, key_of[back])
     cost = np.array(figures).reshape(len(figures), n_sets)[:, sets]  # [key, Y]
@@ -592,14 +601,14 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     floor = np.full(len(sets), -np.inf)
     for lo in range(0, len(sets), width):
         block = slice(lo, min(len(sets), lo + width))
-        own = {g: _sum_rows(*pick[g], cost[:, block], len(grp)) + extra[g][:, None] for g, grp in problem.groups.items()}
+        prices = cost[:, block]
+        own = {g: _sum_rows(*pick[g], prices, len(grp)) + extra[g][:, None] for g, grp in problem.groups.items()}
         for g, bound in _tree_bounds(problem, own, links).items():
             if len(bound):
                 through = bound + fee[block]
                 out[g] = np.minimum(out[g], through.min(axis=1))
                 floor[block] = np.maximum(floor[block], through.min(axis=0))
-    held = [frozenset(s for i, s in enumerate(suppliers) if (y >> i) & 1) for y in sets.tolist()]
-    return SetBounds(out, held, floor)
+    return SetBounds(out, [frozenset(s for i, s in enumerate(suppliers) if (y >> i) & 1) for y in sets.tolist()], floor)
 
 
 def _sum_rows(opt: np.ndarray, key: np.ndarray, cost: np.ndarray, n: int) -> np.ndarray:
@@ -611,14 +620,11 @@ def _sum_rows(opt: np.ndarray, key: np.ndarray, cost: np.ndarray, n: int) -> np.
     return out
 
 
-def _over_sets(offers, suppliers: list[str], key: tuple) -> np.ndarray:
-    """The price of one need for every supplier set (bit i: ``suppliers[i]``); see :func:`supplier_set_bounds`."""
-    return _over_sets_of(tuple(usable(offers)), tuple(suppliers), len(key) == 3, key[1])
-
-
 @functools.lru_cache(maxsize=1 << 12)
 def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: float) -> np.ndarray:
-    """:func:`_over_sets` from usable offer rows, remembered across the threshold rounds (read-only).
+    """The price of one need for every supplier set (bit i: ``suppliers[i]``), from the line's usable offer rows.
+
+    See :func:`supplier_set_bounds`; remembered across the threshold rounds (read-only).
 
     At most 4,096 tables of 2^suppliers prices: 32 MiB with 10 suppliers,
     128 MiB with :data:`FEE_SUBSETS_MAX_SUPPLIERS`; the medium benchmark

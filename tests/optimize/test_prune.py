@@ -536,3 +536,42 @@ def test_seller_bits_hold_each_options_sorted_seller_masks(problem: Problem, sal
         assert len(set(keys)) == len(keys)
         for o, usage in enumerate(grp.usage):
             assert keys[key_of[o]] == tuple(sorted({sellers.get(line, 0) for line, _q, _r in usage}))
+
+
+def _every_purchase(offers: list[Offer], need: int) -> float:
+    """The cheapest purchase of ``need`` units by trying every plan: per supplier nothing, or one break and a quantity on it."""
+    by_supplier: dict[str, list[tuple[int, float, int]]] = {}
+    for off in offers:
+        by_supplier.setdefault(off.supplier, []).append((max(off.min_qty, off.moq, 1), off.unit_price, off.stock))
+    choices = [[(0, 0.0)] + [(q, q * p) for low, p, stock in rows for q in range(low, stock + 1)] for rows in by_supplier.values()]
+    best = math.inf
+    for plan in itertools.product(*choices):
+        if sum(q for q, _c in plan) >= need:
+            best = min(best, sum(c for _q, c in plan))
+    return best
+
+
+@settings(**SETTINGS)
+@given(
+    st.lists(st.tuples(st.sampled_from(["S0", "S1", "S2"]), st.integers(1, 8), st.integers(5, 300), st.integers(0, 4), st.sampled_from([1, 3])),
+             min_size=1, max_size=5),
+    st.integers(1, 6),
+)
+def test_cheapest_purchase_when_every_break_holds_the_need(rows, need: int) -> None:
+    """Stock of every break at least the need: one purchase on one break is cheapest (the shortcut in
+    cheapest_of_rows), checked against every plan of every supplier (independent enumeration)."""
+    offers = [Offer(s, q, c / 100.0, max(q, moq, need) + extra, moq) for s, q, c, extra, moq in rows]
+    assert cheapest_purchase(offers, need) == pytest.approx(_every_purchase(offers, need), abs=1e-9)
+
+
+def test_cheapest_purchase_by_hand() -> None:
+    # Hand-worked. Need 6; S0 sells from 1 at 1.00 (stock 50), S1 from 10 at 0.50 (stock 50):
+    # 6 x 1.00 = 6.00 against 10 x 0.50 = 5.00, so one purchase of 10 at S1.
+    offers = [Offer("S0", 1, 1.00, 50, 1), Offer("S1", 10, 0.50, 50, 1)]
+    assert cheapest_purchase(offers, 6) == pytest.approx(5.00)
+    # Need 12: 12 x 0.50 = 6.00 at S1 against 12.00 at S0.
+    assert cheapest_purchase(offers, 12) == pytest.approx(6.00)
+    # S1 holds only 8 of its break-10 offer: it cannot sell at all (10 > 8); 6 x 1.00 at S0.
+    assert cheapest_purchase([Offer("S0", 1, 1.00, 50, 1), Offer("S1", 10, 0.50, 8, 1)], 6) == pytest.approx(6.00)
+    # S0 holds 4 at 0.40, S1 any number at 1.00: a split, 4 x 0.40 + 2 x 1.00 = 3.60.
+    assert cheapest_purchase([Offer("S0", 1, 0.40, 4, 1), Offer("S1", 1, 1.00, 50, 1)], 6) == pytest.approx(3.60)
