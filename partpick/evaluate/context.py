@@ -71,6 +71,9 @@ class Pool:
     offers: pd.DataFrame
     suppliers: pd.DataFrame
     left_out: dict[str, str] = field(default_factory=dict)
+    # Offers read per part by partpick.optimize.problem (each run assembles
+    # several problems from one pool); not part of the pool's value.
+    offer_memo: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def currency(self) -> str:

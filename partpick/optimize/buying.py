@@ -28,14 +28,34 @@ def smallest_qty(off: Offer) -> int:
     return max(off.min_qty, off.moq, 1)
 
 
-def usable(offers: Iterable[Offer]) -> list[tuple[str, int, float, int]]:
-    """(supplier, smallest quantity, unit price, stock) of the offers that can be bought at all."""
+#: :func:`usable`'s answers by the identity of the offer list asked about,
+#: each with the offers it was computed from (see there); emptied when full.
+_USABLE: dict[int, tuple[tuple, tuple]] = {}
+_USABLE_MAX = 1 << 16
+
+
+def usable(offers: Iterable[Offer]) -> tuple[tuple[str, int, float, int], ...]:
+    """(supplier, smallest quantity, unit price, stock) of the offers that can be bought at all.
+
+    The bounds ask this of the same lines' offer lists round after round, so
+    an answer is remembered by the list's identity together with the offers
+    it held; it is reused only while the list holds equal offers (the same
+    objects, or offers with the same fields), so a list changed since, or a
+    new list at a reused address, is computed afresh.
+    """
+    held = tuple(offers)
+    seen = _USABLE.get(id(offers))
+    if seen is not None and seen[0] == held:
+        return seen[1]
     out = []
-    for off in offers:
-        low = max(off.min_qty, off.moq, 1)  # smallest_qty, inline: called for every line round after round
+    for off in held:
+        low = max(off.min_qty, off.moq, 1)  # smallest_qty, inline
         if low <= off.stock:
             out.append((off.supplier, low, off.unit_price, off.stock))
-    return out
+    if len(_USABLE) >= _USABLE_MAX:
+        _USABLE.clear()
+    _USABLE[id(offers)] = (held, tuple(out))
+    return _USABLE[id(offers)][1]
 
 
 def least_unit_price(offers: Iterable[Offer]) -> float:

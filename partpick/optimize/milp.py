@@ -101,8 +101,10 @@ class Coupling:
     rhs: float = 0.0
 
 
-@dataclass
+@dataclass(frozen=True)
 class Offer:
+    """One price break of one supplier for one part (frozen: lists of them are remembered by value, see buying.usable)."""
+
     supplier: str
     min_qty: int
     unit_price: float

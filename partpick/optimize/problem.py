@@ -318,15 +318,23 @@ def _couplings(targets, k, op, d_ok, i_fb, c_slew) -> list[Coupling]:
 
 
 def _offers(pool: Pool, lines: dict[str, tuple[str, float | None]]) -> dict[str, list[Offer]]:
-    """Each line's offers, by supplier and then quantity (only the parts and families the lines use are read)."""
-    by_source: dict[str, list[Offer]] = {}
-    off = pool.offers
-    off = off[off["mpn"].isin({src for src, _v in lines.values()})].sort_values(["mpn", "supplier", "min_qty"])
-    columns = [off[c].tolist() for c in ("mpn", "supplier", "min_qty", "unit_price", "stock", "moq")]
-    for mpn, supplier, min_qty, price, stock, moq in zip(*columns):
-        moq = 1 if moq is None or (isinstance(moq, float) and math.isnan(moq)) else int(moq)
-        by_source.setdefault(mpn, []).append(Offer(supplier, int(min_qty), float(price), int(stock), moq))
-    return {key: by_source.get(src, []) for key, (src, _v) in lines.items()}
+    """Each line's offers, by supplier and then quantity (only the parts and families the lines use are read).
+
+    A part's offers are read from the pool's table once per pool
+    (``pool.offer_memo``); each line gets a list of its own.
+    """
+    memo = pool.offer_memo
+    wanted = {src for src, _v in lines.values()} - memo.keys()
+    if wanted:
+        off = pool.offers
+        off = off[off["mpn"].isin(wanted)].sort_values(["mpn", "supplier", "min_qty"])
+        columns = [off[c].tolist() for c in ("mpn", "supplier", "min_qty", "unit_price", "stock", "moq")]
+        found: dict[str, list[Offer]] = {src: [] for src in wanted}
+        for mpn, supplier, min_qty, price, stock, moq in zip(*columns):
+            moq = 1 if moq is None or (isinstance(moq, float) and math.isnan(moq)) else int(moq)
+            found[mpn].append(Offer(supplier, int(min_qty), float(price), int(stock), moq))
+        memo.update({src: tuple(o) for src, o in found.items()})
+    return {key: list(memo[src]) for key, (src, _v) in lines.items()}
 
 
 def offers_by_part(pool: Pool, mpns) -> list[list[Offer]]:

@@ -94,3 +94,22 @@ def test_lines_come_in_the_order_a_row_by_row_scan_meets_them(demo_assemblies):
         assert list(asm.lines)[: len(scan)] == scan, name
         sources_seen |= any(role == "bias_source_transistor" for uses in stage.usage for _k, _q, role in uses)
     assert sources_seen  # some example uses current sources, so every column of a row is exercised
+
+
+def test_offers_read_once_per_pool_and_given_as_lists_of_their_own() -> None:
+    catalog = load_catalog(DEMO_CATALOG)
+    pool = make_pool(load_spec(next(p for p in EXAMPLES if p.name == "desk_2ch_12v_single.toml")), catalog)
+    mpns = pool.transistors["mpn"].tolist()[:3]
+    first = P.offers_by_part(pool, mpns + mpns[:1])
+    assert set(pool.offer_memo) == set(mpns)
+    # Straight from the pool's offer table, sorted by supplier and quantity.
+    for mpn, got in zip(mpns, first):
+        rows = pool.offers[pool.offers["mpn"] == mpn].sort_values(["supplier", "min_qty"])
+        assert [(o.supplier, o.min_qty, o.unit_price, o.stock) for o in got] == list(
+            zip(rows["supplier"], rows["min_qty"], rows["unit_price"], rows["stock"]))
+        assert len(got) > 0
+    again = P.offers_by_part(pool, mpns)
+    assert again == first[:3] and all(a is not b for a, b in zip(again, first))  # equal, not the same lists
+    assert first[0] == first[3]  # the same part asked twice
+    first[0].clear()  # a caller's list is its own: the next reading is whole
+    assert P.offers_by_part(pool, mpns[:1])[0] == again[0] and len(again[0]) > 0

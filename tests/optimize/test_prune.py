@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import dataclasses
 from dataclasses import replace
 
 import numpy as np
@@ -575,3 +576,20 @@ def test_cheapest_purchase_by_hand() -> None:
     assert cheapest_purchase([Offer("S0", 1, 1.00, 50, 1), Offer("S1", 10, 0.50, 8, 1)], 6) == pytest.approx(6.00)
     # S0 holds 4 at 0.40, S1 any number at 1.00: a split, 4 x 0.40 + 2 x 1.00 = 3.60.
     assert cheapest_purchase([Offer("S0", 1, 0.40, 4, 1), Offer("S1", 1, 1.00, 50, 1)], 6) == pytest.approx(3.60)
+
+
+def test_usable_offers_follow_a_list_changed_in_place() -> None:
+    # usable() remembers its answer per offer list; a list changed since must not get the old answer.
+    from partpick.optimize.buying import usable
+
+    offers = [Offer("S0", 10, 0.50, 8, 1)]  # break 10 above its stock of 8: nothing can be bought
+    assert usable(offers) == ()
+    offers.append(Offer("S1", 1, 1.00, 50, 5))  # MOQ 5: smallest purchase 5
+    assert usable(offers) == (("S1", 5, 1.00, 50),)
+    offers[0] = Offer("S0", 10, 0.50, 80, 1)  # same length, the first offer replaced: now it sells
+    assert usable(offers) == (("S0", 10, 0.50, 80), ("S1", 5, 1.00, 50))
+    assert cheapest_purchase(offers, 6) == pytest.approx(5.00)  # 10 x 0.50 against 6 x 1.00
+    offers.clear()
+    assert usable(offers) == () and cheapest_purchase(offers, 6) == math.inf
+    with pytest.raises(dataclasses.FrozenInstanceError):  # an offer cannot change under a remembered list
+        Offer("S0", 1, 1.0, 5, 1).stock = 0
