@@ -38,7 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partpick.optimize.buying import cheapest_of_rows, least_unit_price, rows_no_dearer, usable
+from partpick.optimize.buying import EXACT_NEED_MAX, cheapest_of_rows, least_unit_price, rows_no_dearer, usable
 from partpick.optimize.milp import Coupling, Group, Problem, set_classes
 from partpick.spec import order_units
 
@@ -568,12 +568,6 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     sets = np.arange(n_sets)
     needs = _all_needs(problem)
     links = {g: _Links.of(problem, g, classes=True) for g in children}
-    if threshold is not None:
-        parts = _tree_bounds(problem, option_costs(problem, needs), links)  # lower_bounds, on the same links
-        parts_floor = min((float(b.min()) for b in parts.values() if len(b)), default=math.inf)
-        sets = np.flatnonzero(fee + parts_floor <= threshold)
-    if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
-        return None
     users = _line_users(needs)
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
@@ -593,9 +587,19 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
                 figures.append(_over_sets_of(rows[line], held, len(key) == 3, key[1]))
             key_of[j] = keys[key]
         pick[g] = (opt, key_of[back])
-    cost = np.array(figures).reshape(len(figures), n_sets)[:, sets]  # [key, Y]
-    fee = fee[sets]
+    table = np.array(figures).reshape(len(figures), n_sets)  # [key, Y]
     extra = {g: _weighted_changes(problem, g) for g in problem.groups}
+    if threshold is not None:
+        # The parts bound through the set of every supplier is the least over
+        # all sets (each holds fewer offers): lower_bounds on the same links,
+        # with the offers of the suppliers that have a fee.
+        every = {g: _sum_rows(*pick[g], table[:, -1:], len(grp))[:, 0] + extra[g] for g, grp in problem.groups.items()}
+        parts_floor = min((float(b.min()) for b in _tree_bounds(problem, every, links).values() if len(b)), default=math.inf)
+        sets = np.flatnonzero(fee + parts_floor <= threshold)
+    if cells * len(sets) > SET_BOUNDS_MAX_CELLS:
+        return None
+    cost = table[:, sets]
+    fee = fee[sets]
     width = max(1, SET_BLOCK_CELLS // max(1, cells))
     out = {g: np.full(len(grp), np.inf) for g, grp in problem.groups.items()}
     floor = np.full(len(sets), -np.inf)
@@ -631,13 +635,24 @@ def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: 
     uses 646 of them.
     """
     sellers = sorted({s for s, *_rest in rows if s in suppliers})
-    table = np.full(1 << len(sellers), np.inf)
-    for sub in range(1, len(table)):
-        held = {s for j, s in enumerate(sellers) if (sub >> j) & 1}
-        if shared:
-            table[sub] = units * min(p for s, _low, p, _st in rows if s in held)
-        else:
-            table[sub] = cheapest_of_rows(tuple(r for r in rows if r[0] in held), units)
+    mine = [r for r in rows if r[0] in suppliers]
+    if shared or (0 < units <= EXACT_NEED_MAX and all(st >= units for *_r, st in mine)):
+        # Each subset's price is its cheapest seller's own: units x least price
+        # (shared), or one purchase on one break when every break holds the
+        # need (cheapest_of_rows' shortcut). Built seller by seller: the
+        # subsets with seller j are those without it, each min'd with j's price.
+        table = np.full(1, np.inf)
+        for s in sellers:
+            own = min(units * p if shared else p * max(low, units) for t, low, p, _st in mine if t == s)
+            table = np.concatenate([table, np.minimum(table, own)])
+    else:
+        table = np.full(1 << len(sellers), np.inf)
+        for sub in range(1, len(table)):
+            held = {s for j, s in enumerate(sellers) if (sub >> j) & 1}
+            if shared:
+                table[sub] = units * min(p for s, _low, p, _st in rows if s in held)
+            else:
+                table[sub] = cheapest_of_rows(tuple(r for r in rows if r[0] in held), units)
     sets = np.arange(1 << len(suppliers))
     index = np.zeros(len(sets), dtype=np.int64)
     for j, s in enumerate(sellers):

@@ -593,3 +593,28 @@ def test_usable_offers_follow_a_list_changed_in_place() -> None:
     assert usable(offers) == () and cheapest_purchase(offers, 6) == math.inf
     with pytest.raises(dataclasses.FrozenInstanceError):  # an offer cannot change under a remembered list
         Offer("S0", 1, 1.0, 5, 1).stock = 0
+
+
+@settings(**SETTINGS)
+@given(
+    st.lists(st.tuples(st.sampled_from(["S0", "S1", "S2", "S3"]), st.sampled_from([1, 2, 5, 10, 25]), st.integers(5, 300),
+                       st.sampled_from([0, 3, 8, 40, 1000]), st.sampled_from([1, 5])), min_size=1, max_size=7),
+    st.integers(1, 30),
+    st.booleans(),
+)
+def test_a_need_priced_for_every_supplier_set(rows, need: int, shared: bool) -> None:
+    """The supplier-set bounds' price of one need, for each set of S0..S2 (S3 has no fee: never in a set),
+    against the independent pricer on that set's offers (a shared line: its units at the set's least price)."""
+    from partpick.optimize.buying import usable
+
+    offers = [Offer(s, q, c / 100.0, stock, moq) for s, q, c, stock, moq in rows]
+    suppliers = ("S0", "S1", "S2")
+    got = prune._over_sets_of(usable(offers), suppliers, shared, float(need) if shared else need)
+    for y in range(1 << len(suppliers)):
+        allowed = frozenset(s for i, s in enumerate(suppliers) if (y >> i) & 1)
+        if shared:
+            prices = [o.unit_price for o in offers if o.supplier in allowed and max(o.min_qty, o.moq, 1) <= o.stock]
+            expected = need * min(prices) if prices else math.inf
+        else:
+            expected = cheapest_line_cost(offers, need, allowed)
+        assert got[y] == pytest.approx(expected, abs=1e-9), (y, allowed)
