@@ -653,7 +653,8 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
     no_design = -1
     last = 0.0  # seconds the last threshold solve took
     while True:
-        inside = {g: np.flatnonzero(b <= threshold) for g, b in bound.items()}
+        # Children whose every compatible parent lies above the threshold cannot be held either.
+        inside = reduce.with_parents(problem, {g: np.flatnonzero(b <= threshold) for g, b in bound.items()})
         sol = None
         if all(len(k) for k in inside.values()):
             # A design of cost <= threshold holds options of `inside` alone, so

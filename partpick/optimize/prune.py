@@ -101,6 +101,24 @@ def restrict(problem: Problem, keep: dict[str, np.ndarray]) -> Problem:
     )
 
 
+def with_parents(problem: Problem, keep: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """``keep`` without the child options none of whose compatible parent options it keeps.
+
+    No design of the restriction to ``keep`` can hold such an option (a child
+    goes with a compatible parent), so dropping them changes none of its
+    designs; parents are thinned first, so that a grandchild follows.
+    """
+    out = dict(keep)
+    for g in sorted(problem.groups, key=lambda name: _depth(problem, name)):
+        grp = problem.groups[g]
+        if grp.parent is None or not len(out[g]):
+            continue
+        held = np.zeros(len(problem.groups[grp.parent]), dtype=bool)
+        held[out[grp.parent]] = True
+        out[g] = np.array([i for i in out[g].tolist() if held[grp.compat[i]].any()], dtype=np.int64)
+    return out
+
+
 def _renumber(indices: np.ndarray, remap: np.ndarray) -> np.ndarray:
     out = remap[np.asarray(indices, dtype=np.int64)]
     return out[out >= 0]

@@ -618,3 +618,39 @@ def test_a_need_priced_for_every_supplier_set(rows, need: int, shared: bool) -> 
         else:
             expected = cheapest_line_cost(offers, need, allowed)
         assert got[y] == pytest.approx(expected, abs=1e-9), (y, allowed)
+
+
+def test_with_parents_drops_children_whose_parents_are_all_left_out() -> None:
+    # p has 3 options; c's options go with parents {0}, {1, 2}, {2}, {} ; d (child of c) with {0}, {1}, {3}.
+    usage = lambda n: [[] for _ in range(n)]  # noqa: E731
+    groups = {
+        "p": Group("p", ["p0", "p1", "p2"], usage(3)),
+        "c": Group("c", ["c0", "c1", "c2", "c3"], usage(4), "p", [np.array([0]), np.array([1, 2]), np.array([2]), np.array([], dtype=np.int64)]),
+        "d": Group("d", ["d0", "d1", "d2"], usage(3), "c", [np.array([0]), np.array([1]), np.array([3])]),
+    }
+    problem = Problem(groups=groups, couplings=[], line_offers={}, fees={}, factor=1.0)
+    every = {g: np.arange(len(grp)) for g, grp in problem.groups.items()}
+    kept = prune.with_parents(problem, every)
+    # c3 has no parent at all, so d2 (whose only parent is c3) goes too.
+    assert {g: k.tolist() for g, k in kept.items()} == {"p": [0, 1, 2], "c": [0, 1, 2], "d": [0, 1]}
+    # Without p2: c2 goes (its only parent), c1 stays (p1); without p0 too, c0 goes and so does d0.
+    kept = prune.with_parents(problem, {**every, "p": np.array([1])})
+    assert {g: k.tolist() for g, k in kept.items()} == {"p": [1], "c": [1], "d": [1]}
+
+
+@settings(**SETTINGS)
+@given(problems(), st.floats(0.2, 1.0))
+def test_with_parents_keeps_every_design_of_the_restriction(problem: Problem, share: float) -> None:
+    """The restriction to some options and to those with_parents keeps have the same optimum (brute force)."""
+    keep = {g: np.arange(len(grp))[np.arange(len(grp)) < max(1, round(share * len(grp)))] for g, grp in problem.groups.items()}
+    thinned = prune.with_parents(problem, keep)
+    for g in keep:
+        assert set(thinned[g].tolist()) <= set(keep[g].tolist())
+    before = brute_force(prune.restrict(problem, keep), "cost")
+    if not all(len(k) for k in thinned.values()):
+        assert before is None
+        return
+    after = brute_force(prune.restrict(problem, thinned), "cost")
+    assert (before is None) == (after is None)
+    if before is not None:
+        assert after.cost == pytest.approx(before.cost, abs=1e-9)
