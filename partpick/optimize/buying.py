@@ -52,10 +52,11 @@ def usable(offers: Iterable[Offer]) -> tuple[tuple[str, int, float, int], ...]:
         low = max(off.min_qty, off.moq, 1)  # smallest_qty, inline
         if low <= off.stock:
             out.append((off.supplier, low, off.unit_price, off.stock))
+    rows = tuple(out)
     if len(_USABLE) >= _USABLE_MAX:
         _USABLE.clear()
-    _USABLE[id(offers)] = (held, tuple(out))
-    return _USABLE[id(offers)][1]
+    _USABLE[id(offers)] = (held, rows)
+    return rows
 
 
 def least_unit_price(offers: Iterable[Offer]) -> float:
@@ -74,7 +75,7 @@ def cheapest_purchase(offers: list[Offer], need: int) -> float:
     :data:`EXACT_NEED_MAX` units it returns the lower bound ``need x`` the
     cheapest unit price instead. ``inf`` when the stock cannot cover the need.
     """
-    return cheapest_of_rows(tuple(usable(offers)), int(need))
+    return cheapest_of_rows(usable(offers), int(need))
 
 
 @functools.lru_cache(maxsize=1 << 14)
@@ -119,7 +120,7 @@ def line_no_dearer(better: list[Offer], worse: list[Offer], need: int) -> bool:
     purchase then maps to the same quantity (or, when one break alone covers
     the need, to max(smallest quantity, need)) at the same suppliers.
     """
-    return rows_no_dearer(tuple(usable(better)), tuple(usable(worse)), need)
+    return rows_no_dearer(usable(better), usable(worse), need)
 
 
 @functools.lru_cache(maxsize=1 << 16)

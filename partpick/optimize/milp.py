@@ -1129,7 +1129,7 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             # for every integer plan; it keeps the relaxation from buying
             # fractions of a high break at its low price.
             spend = [(q, off.unit_price) for _l, off, q in buy[first_buy:]]
-            rows = tuple(usable(offers))
+            rows = usable(offers)
             least = [(v, -c) for v, c in ((v, cheapest_of_rows(rows, ceil_units(a))) for v, a in need_expr[line]) if math.isfinite(c)]
             m += pulp.LpAffineExpression(spend + least) >= 0, f"spend_{l_i}"
     cost = pulp.LpAffineExpression(cost_terms)

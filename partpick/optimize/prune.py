@@ -200,7 +200,6 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
     users = _line_users(needs)
     memo: dict[tuple[str, int], float] = {}
     pmin: dict[str, float] = {}  # shared lines' least unit prices, as they are met
-    rows: dict[str, tuple] = {}  # lines' usable offer rows, as they are met
     out = {}
     for g, grp in problem.groups.items():
         opt, ids, names, units = needs[g]
@@ -211,9 +210,7 @@ def option_costs(problem: Problem, needs: dict | None = None) -> dict[str, np.nd
             if len(users[line]) == 1:
                 key = (line, math.ceil(q))
                 if key not in memo:
-                    if line not in rows:
-                        rows[line] = tuple(usable(problem.line_offers.get(line, [])))
-                    memo[key] = cheapest_of_rows(rows[line], key[1])
+                    memo[key] = cheapest_of_rows(usable(problem.line_offers.get(line, [])), key[1])
                 price[j] = memo[key]
             else:
                 if line not in pmin:
@@ -590,8 +587,7 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
     keys: dict[tuple, int] = {}
     figures: list[np.ndarray] = []  # per key: its price for every supplier set
     pick: dict[str, tuple[np.ndarray, np.ndarray]] = {}  # per group: (option, key) of each of its needs
-    rows: dict[str, tuple] = {}  # per line: its usable offer rows
-    held = tuple(suppliers)
+    ordered = tuple(suppliers)
     for g, (opt, ids, names, units) in needs.items():
         distinct, back = _distinct_needs(ids, units)
         key_of = np.empty(len(distinct), dtype=np.int64)
@@ -600,9 +596,7 @@ def supplier_set_bounds(problem: Problem, threshold: float | None = None) -> Set
             key = (line, math.ceil(q)) if len(users[line]) == 1 else (line, q, "shared")
             if key not in keys:
                 keys[key] = len(figures)
-                if line not in rows:
-                    rows[line] = tuple(usable(problem.line_offers.get(line, [])))
-                figures.append(_over_sets_of(rows[line], held, len(key) == 3, key[1]))
+                figures.append(_over_sets_of(usable(problem.line_offers.get(line, [])), ordered, len(key) == 3, key[1]))
             key_of[j] = keys[key]
         pick[g] = (opt, key_of[back])
     table = np.array(figures).reshape(len(figures), n_sets)  # [key, Y]
@@ -665,12 +659,9 @@ def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: 
             table = np.concatenate([table, np.minimum(table, own)])
     else:
         table = np.full(1 << len(sellers), np.inf)
-        for sub in range(1, len(table)):
+        for sub in range(1, len(table)):  # a line of one group some break of which cannot hold the need
             held = {s for j, s in enumerate(sellers) if (sub >> j) & 1}
-            if shared:
-                table[sub] = units * min(p for s, _low, p, _st in rows if s in held)
-            else:
-                table[sub] = cheapest_of_rows(tuple(r for r in rows if r[0] in held), units)
+            table[sub] = cheapest_of_rows(tuple(r for r in rows if r[0] in held), units)
     sets = np.arange(1 << len(suppliers))
     index = np.zeros(len(sets), dtype=np.int64)
     for j, s in enumerate(sellers):
@@ -735,7 +726,6 @@ class _GroupView:
         self.child_sets = [_packed_child_sets(problem, h) for h in children]
         self._usage(users)
         self.offers_memo: dict[tuple[str, str, int], bool] = {}
-        self.rows_memo: dict[str, tuple] = {}
 
     def _usage(self, users: dict[str, set[str]]) -> None:
         """Per option: a block id (roles, units, shared lines) and its private lines in role order."""
@@ -818,10 +808,8 @@ class _GroupView:
         return self.offers_memo[key]
 
     def _rows(self, line: str) -> tuple:
-        """:func:`usable` rows of a line's offers, once per line."""
-        if line not in self.rows_memo:
-            self.rows_memo[line] = tuple(usable(self.problem.line_offers.get(line, [])))
-        return self.rows_memo[line]
+        """:func:`usable` rows of a line's offers (remembered there)."""
+        return usable(self.problem.line_offers.get(line, []))
 
 
 def _split(labels: np.ndarray, items: np.ndarray | None = None) -> list[np.ndarray]:
