@@ -41,6 +41,7 @@ import pulp
 
 from partpick.errors import SolverError, SolverTimeout, UsageError
 from partpick.optimize.buying import cheapest_of_rows, smallest_qty, usable, useful_breaks
+from partpick.optimize.lpmodel import Model
 from partpick.procs import child_pids
 from partpick.spec import order_units
 
@@ -450,7 +451,7 @@ def _any_design_model(problem: Problem, solver: str, time_limit: float | None) -
     (as in :func:`solve_model`, where each user needs a seller). With
     nothing to minimise, the solver stops at the first design.
     """
-    m = pulp.LpProblem("partpick_any", pulp.LpMinimize)
+    m = Model("partpick_any", pulp.LpMinimize)
     x, _classes = _choice_rows(m, problem)
     need, most, _users = _line_units(problem, x)
     supplier_tie = _supplier_tie(problem)
@@ -1064,7 +1065,7 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     handed to the solver as its first incumbent, so the search prunes against
     it from the first node.
     """
-    m = pulp.LpProblem("partpick", pulp.LpMinimize)
+    m = Model("partpick", pulp.LpMinimize)
     x, classes = _choice_rows(m, problem)
     tie_terms = [(v, float(w)) for gname, vars_ in x.items() for v, w in zip(vars_, tie[gname]) if w]
 
