@@ -64,6 +64,10 @@ route stops (out of memory, partpick's own size limit, no design) is printed
 as one line with the reason. ``--bias-feed`` replaces the spec's
 ``[stage] bias_feed``.
 
+The first line printed is the machine's speed of the day
+(:func:`machine_reference`: a plain Python loop of 10^7 additions), since the
+shared machine runs some days several times slower than others.
+
 Exit status 0 when every size finished with a proven optimum that every
 finished route agrees with; 1 otherwise (a stopped size included).
 """
@@ -681,6 +685,20 @@ def verdict(status: str, agree: bool) -> str:
     return "OK" if agree else "MISMATCH"
 
 
+def machine_reference(n: int = 10**7) -> float:
+    """Seconds a plain Python loop of ``n`` additions takes here: the shared machine's speed of the day.
+
+    Printed before the tables, so that figures taken on different days can be
+    set side by side (the stages of a run slow down with it).
+    """
+    t = time.perf_counter()
+    total = 0
+    for i in range(n):
+        total += i
+    assert total == n * (n - 1) // 2
+    return time.perf_counter() - t
+
+
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description="Benchmark partpick design runs on generated catalogues.")
     ap.add_argument("--sizes", default="small,medium,large")
@@ -707,6 +725,7 @@ def main(argv: list[str] | None = None) -> int:
         print("RESULT " + json.dumps(m))
         return 0
     status = 0
+    print(f"machine reference: a Python loop of 10^7 additions took {machine_reference():.2f} s", flush=True)
     for size in args.sizes.split(","):
         if size not in SIZES:
             ap.error(f"unknown size '{size}'")
