@@ -64,9 +64,10 @@ route stops (out of memory, partpick's own size limit, no design) is printed
 as one line with the reason. ``--bias-feed`` replaces the spec's
 ``[stage] bias_feed``.
 
-The first line printed is the machine's speed of the day
-(:func:`machine_reference`: a plain Python loop of 10^7 additions), since the
-shared machine runs some days several times slower than others.
+The last line of each size is the machine's speed then, before and after
+the size (:func:`machine_reference`: a plain Python loop of 10^7 additions),
+since the shared machine runs several times slower at some hours than at
+others, and the figures are only comparable at like speeds.
 
 Exit status 0 when every size finished with a proven optimum that every
 finished route agrees with; 1 otherwise (a stopped size included).
@@ -686,9 +687,9 @@ def verdict(status: str, agree: bool) -> str:
 
 
 def machine_reference(n: int = 10**7) -> float:
-    """Seconds a plain Python loop of ``n`` additions takes here: the shared machine's speed of the day.
+    """Seconds a plain Python loop of ``n`` additions takes here: the shared machine's speed at the time.
 
-    Printed before the tables, so that figures taken on different days can be
+    Printed around each size, so that figures taken at different times can be
     set side by side (the stages of a run slow down with it).
     """
     t = time.perf_counter()
@@ -725,10 +726,10 @@ def main(argv: list[str] | None = None) -> int:
         print("RESULT " + json.dumps(m))
         return 0
     status = 0
-    print(f"machine reference: a Python loop of 10^7 additions took {machine_reference():.2f} s", flush=True)
     for size in args.sizes.split(","):
         if size not in SIZES:
             ap.error(f"unknown size '{size}'")
+        before = machine_reference()
         t0 = time.perf_counter()
         cmd = [sys.executable, str(Path(__file__).resolve()), "--worker", size, "--repeat", str(args.repeat),
                "--spec", args.spec, "--seed", str(args.seed), "--solver", args.solver,
@@ -743,7 +744,9 @@ def main(argv: list[str] | None = None) -> int:
             continue
         m = json.loads(found[-1][len("RESULT "):])
         print(table(m))
-        print(f"   wall time of this size incl. generation and baseline: {time.perf_counter() - t0:.1f} s", flush=True)
+        print(f"   wall time of this size incl. generation and baseline: {time.perf_counter() - t0:.1f} s")
+        print(f"   machine reference (a Python loop of 10^7 additions) before and after this size: {before:.2f} s, "
+              f"{machine_reference():.2f} s", flush=True)
         status |= "failed" in m or "MISMATCH" in table(m) or "UNPROVEN" in table(m)
     return int(status)
 
