@@ -124,3 +124,22 @@ def test_the_design_model_file_is_pulps(monkeypatch, tmp_path) -> None:
         m.writeMPS(str(ours), rename=1)
         mps_lp.writeMPS(m, str(pulps), rename=1)
         assert filecmp.cmp(ours, pulps, shallow=False)
+
+
+def test_a_row_changed_after_it_was_added_still_gives_pulps_file(tmp_path) -> None:
+    # Hand-made: row r gains column c after it was added; the fast writer would
+    # miss c, so it must hand over to PuLP's writer, which walks every row.
+    files = []
+    for cls in (Model, pulp.LpProblem):
+        a, b, c = (pulp.LpVariable(n, lowBound=0, upBound=5, cat="Integer") for n in "abc")
+        m = cls("changed", pulp.LpMinimize)
+        row = pulp.LpAffineExpression([(a, 1.0), (b, 2.0)]) >= 3
+        m += row, "r"
+        m.setObjective(pulp.LpAffineExpression([(a, 1.0), (b, 1.0)]))
+        row.expr.addterm(c, 4.0)
+        path = tmp_path / f"{cls.__name__}.mps"
+        got = m.writeMPS(str(path), rename=1)
+        assert "c" in got[1]
+        files.append(path)
+    assert filecmp.cmp(*files, shallow=False)
+    assert "X0000002  C0000000   4.000000000000e+00" in files[0].read_text()
