@@ -57,19 +57,17 @@ class Model(pulp.LpProblem):
         was_none, dummy = self.fixObjective()
         obj = self.objective
         obj.name = "OBJ"
-        vs = self.variables()
+        con_names, var_names, _obj = self.normalisedNames()
+        vs = self.variables()  # the order normalisedNames numbered (sorted once)
         index = {v.name: i for i, v in enumerate(vs)}
-        var_names = {v.name: "X%07d" % i for i, v in enumerate(vs)}
-        con_names = {}
         sense = const.LpConstraintTypeToMps
         cols: list[list[str]] = [[] for _ in vs]
         text: dict[float, str] = {}  # "% .12e" of each coefficient, made once per value
         row_lines = []
         rhs_lines = []
         try:
-            for r, (k, c) in enumerate(self._constraints.items()):
-                cn = "C%07d" % r
-                con_names[k] = cn
+            for k, c in self._constraints.items():
+                cn = con_names[k]
                 row_lines.append(f" {sense[c.sense]}  {cn}\n")
                 head = f"  {cn}  "
                 for v, a in c.items():

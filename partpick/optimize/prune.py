@@ -651,11 +651,13 @@ def _over_sets_of(rows: tuple, suppliers: tuple[str, ...], shared: bool, units: 
     if shared or (0 < units <= EXACT_NEED_MAX and all(st >= units for *_r, st in mine)):
         # Each subset's price is its cheapest seller's own: units x least price
         # (shared), or one purchase on one break when every break holds the
-        # need (cheapest_of_rows' shortcut). Built seller by seller: the
-        # subsets with seller j are those without it, each min'd with j's price.
+        # need (cheapest_of_rows then prices each seller by that shortcut).
+        # Built seller by seller: the subsets with seller j are those without
+        # it, each min'd with j's price.
         table = np.full(1, np.inf)
         for s in sellers:
-            own = min(units * p if shared else p * max(low, units) for t, low, p, _st in mine if t == s)
+            theirs = tuple(r for r in mine if r[0] == s)
+            own = units * min(p for _t, _low, p, _st in theirs) if shared else cheapest_of_rows(theirs, units)
             table = np.concatenate([table, np.minimum(table, own)])
     else:
         table = np.full(1 << len(sellers), np.inf)
