@@ -447,7 +447,12 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
     best: DesignResult | None = None  # the cheapest design found, not yet proven
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
     splits = 0
+    built = 0.0  # seconds the last table took to build (its stage table and assembly)
     while True:
+        if best is not None and deadline is not None and deadline - _clock() < built:
+            # The next table is larger than the last, and no time would be left to solve it.
+            return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
+        began = _clock()
         try:
             stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
         except SizeLimitError:
@@ -460,6 +465,7 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
             continue
         done = threshold
         asm = assemble(spec, pool, targets, stage)
+        built = _clock() - began
         status = "infeasible" if asm is None or asm.problem is None else "prepared"
         if status == "prepared" and search.forbidden:
             forbid_parts(asm, search.forbidden)

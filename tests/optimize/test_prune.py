@@ -15,7 +15,7 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from partpick.optimize import prune
@@ -423,13 +423,21 @@ def test_array_needs_add_two_uses_of_one_line_by_hand() -> None:
 
 @settings(**SETTINGS)
 @given(problems(), st.sampled_from(["cbc", "highs"]))
-def test_a_first_design_from_few_suppliers_keeps_the_optimum_and_its_tie_break(problem: Problem, solver: str) -> None:
-    """With the first-design step on every threshold problem (no size floor), the loop still gives the brute force's optimum."""
+@pytest.mark.parametrize("set_bounds", [True, False])
+def test_the_start_design_steps_keep_the_optimum_and_its_tie_break(set_bounds: bool, problem: Problem, solver: str) -> None:
+    """With the start-design steps on every threshold problem (no size floor), the loop still gives the brute force's optimum.
+
+    With supplier-set bounds the step is the first design from the cheapest
+    sets; without them (none at all here) it is the fee-free supplier step,
+    on every threshold problem with a design in hand.
+    """
     from partpick.optimize import milp
 
     exact = brute_force(problem)
     with pytest.MonkeyPatch.context() as m:
         m.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 0)
+        if not set_bounds:
+            m.setattr(prune, "FEE_SUBSETS_MAX_SUPPLIERS", 0)
         pruned = solve(problem, solver)
     whole = solve(problem, solver, prune=False)
     if exact is None:
@@ -475,6 +483,103 @@ def test_the_first_design_comes_from_the_cheapest_supplier_sets(monkeypatch) -> 
     assert tried == [["S1"], ["S2"]]
     assert starts[-1] == 12.0  # the full solve starts from the design found
     assert sol.status == "optimal" and sol.total == pytest.approx(12.0)
+
+
+def _fee_free_problem() -> Problem:
+    """a0 needs LA (P only: 1.00, fee 5), a1 needs LB (F2 only, no fee: 0.50); b0 needs LC (P or F1, no fee: 1.00 each).
+
+    Worked by hand: from P alone the only design is a0 + b0, 1.00 + 1.00 +
+    5.00 fee = 7.00; with the fee-free F1 and F2 added, a1 + b0 costs 0.50 +
+    1.00 = 1.50 and pays no fee (b0's LC bought from F1).
+    """
+    a = Group("a", ["a0", "a1"], [[("LA", 1.0, "r")], [("LB", 1.0, "r")]])
+    b = Group("b", ["b0"], [[("LC", 1.0, "s")]])
+    offers = {"LA": [Offer("P", 1, 1.0, 10, 1)], "LB": [Offer("F2", 1, 0.5, 10, 1)],
+              "LC": [Offer("P", 1, 1.0, 10, 1), Offer("F1", 1, 1.0, 10, 1)]}
+    return Problem({"a": a, "b": b}, [], offers, {"P": 5.0, "F1": 0.0, "F2": 0.0}, 1.0)
+
+
+def test_free_sellers_add_every_fee_free_supplier_to_the_design_s_own_by_hand(monkeypatch) -> None:
+    """From the 7.00 design bought at P, its suppliers plus F1 and F2 give the 1.50 design; each set is solved once."""
+    from partpick.optimize import milp
+
+    p = _fee_free_problem()
+    tie = tie_weights(p)
+    start = milp._with_suppliers(p, tie, "cbc", {"P"}, 10.0)
+    assert start.total == pytest.approx(7.0) and start.suppliers_used == ["P"]
+    tried_sets, starts = [], []
+    real_with, real_model = milp._with_suppliers, milp.solve_model
+
+    def spy_with(problem, tie, solver, allowed, time_limit, start=None):
+        tried_sets.append(sorted(allowed))
+        return real_with(problem, tie, solver, allowed, time_limit, start=start)
+
+    def spy_model(problem, tie, solver="cbc", time_limit=None, start=None):
+        starts.append(None if start is None else round(start.total, 6))
+        return real_model(problem, tie, solver, time_limit, start=start)
+
+    monkeypatch.setattr(milp, "_with_suppliers", spy_with)
+    monkeypatch.setattr(milp, "solve_model", spy_model)
+    keep = {g: np.arange(len(grp)) for g, grp in p.groups.items()}
+    tried: set[frozenset[str]] = set()
+    found = milp._free_sellers(p, keep, tie, "cbc", start, tried, None)
+    assert tried_sets == [["F1", "F2", "P"]] and starts == [7.0]  # started from the design in hand
+    assert found.total == pytest.approx(1.5) and found.fees_cost == 0.0
+    assert found.choice == {"a": 1, "b": 0} and found.status == "not proven optimal"
+    assert milp._free_sellers(p, keep, tie, "cbc", start, tried, None) is None  # that set was solved already
+    assert found.suppliers_used == ["F1", "F2"]
+    assert milp._free_sellers(p, keep, tie, "cbc", found, set(), None) is None  # every fee-free supplier is in already
+    assert len(tried_sets) == 1  # neither of the last two calls solved anything
+
+
+def test_free_sellers_keep_to_the_options_given_by_hand() -> None:
+    """Without a1 among the options, adding F1 and F2 only moves LC's purchase: a0 + b0 from P still pays P's fee (7.00), no cheaper."""
+    from partpick.optimize import milp
+
+    p = _fee_free_problem()
+    tie = tie_weights(p)
+    start = milp._with_suppliers(p, tie, "cbc", {"P"}, 10.0)
+    keep = {"a": np.array([0]), "b": np.array([0])}
+    tried: set[frozenset[str]] = set()
+    assert milp._free_sellers(p, keep, tie, "cbc", start, tried, None) is None
+    assert tried == {frozenset({"P", "F1", "F2"})}  # solved, and nothing cheaper found
+
+
+@settings(**SETTINGS)
+@given(problems(), st.data())
+def test_free_sellers_give_the_brute_force_optimum_over_the_design_s_and_the_fee_free_suppliers(problem: Problem, data) -> None:
+    """A start bought from some suppliers with fees; the step's design is the brute force's optimum with those and the fee-free ones.
+
+    None exactly when that optimum is no cheaper than the start (or no
+    fee-free supplier is new); a design returned buys from those suppliers
+    alone and meets every rule.
+    """
+    from partpick.optimize import milp
+
+    names = sorted(problem.fees)
+    assume(len(names) >= 2)
+    free = data.draw(st.sets(st.sampled_from(names), min_size=1, max_size=len(names) - 1))
+    problem = replace(problem, fees={s: 0.0 if s in free else max(fee, 1.0) for s, fee in problem.fees.items()})
+    tie = tie_weights(problem)
+    subset = data.draw(st.sets(st.sampled_from([s for s in names if s not in free]), min_size=1))
+    start = milp._with_suppliers(problem, tie, "cbc", subset, 30.0)
+    assume(start is not None)
+    allowed = set(start.suppliers_used) | {s for s, fee in problem.fees.items() if fee == 0.0}
+    narrow = replace(problem, line_offers={line: [o for o in offs if o.supplier in allowed] for line, offs in problem.line_offers.items()},
+                     fees={s: fee for s, fee in problem.fees.items() if s in allowed})
+    exact = brute_force(narrow)
+    assert exact is not None and exact.cost <= start.total + COST_TOL  # the start is one of its designs
+    keep = {g: np.arange(len(grp)) for g, grp in problem.groups.items()}
+    found = milp._free_sellers(problem, keep, tie, "cbc", start, set(), None)
+    if allowed == set(start.suppliers_used) or exact.cost > start.total - COST_TOL:
+        if found is not None:  # equal cost, a better tie-break
+            assert found.total == pytest.approx(start.total, abs=COST_TOL)
+        else:
+            assert allowed == set(start.suppliers_used) or exact.cost == pytest.approx(start.total, abs=COST_TOL)
+        return
+    assert found is not None and found.total == pytest.approx(exact.cost, abs=COST_TOL)
+    assert set(found.suppliers_used) <= allowed and check_choice(problem, found.choice) == []
+    assert found.status == "not proven optimal"
 
 
 @settings(**SETTINGS)
