@@ -179,6 +179,11 @@ class SinkCosts:
     core_package: np.ndarray  # per core configuration: its output pair's package code (-1: no heatsink mounts it)
     n_dev: int  # output devices on one sink
     channels: int  # channels on one sink (two sources each when they sit on it)
+    # The core configurations' rows per package code, and the ladders per
+    # (source package, devices, package): fixed by the fields above, and
+    # asked for again at every source pair (hundreds on a large catalogue).
+    _core_rows: list | None = field(default=None, repr=False, compare=False)
+    _ladders: dict = field(default_factory=dict, repr=False, compare=False)
 
     def least(self, limits: np.ndarray, package: np.ndarray, source_package: int, devices: int) -> np.ndarray:
         """Per row: the least ``cost`` of a heatsink that suits it (inf: none).
@@ -190,18 +195,42 @@ class SinkCosts:
         out = np.full(len(package), np.inf)
         if source_package == -2 or not len(self.rth):
             return out
-        fits = self.max_devices >= devices
-        if source_package >= 0:
-            fits = fits & self.holds[:, source_package]
-        for code in np.unique(package[package >= 0]).tolist():
-            rows = np.flatnonzero(package == code)
-            ok = fits & self.holds[:, code]
+        for code, rows in self._rows_by_code(package):
+            at_rows = limits[rows]
+            best = np.full(len(rows), np.inf)
+            for c, rth, running in self._ladder(source_package, devices, code):
+                # running[0] is inf: a limit below every Rth_sa of the class finds none.
+                np.minimum(best, running[np.searchsorted(rth, at_rows[:, c], side="right")], out=best)
+            out[rows] = best
+        return out
+
+    def _rows_by_code(self, package: np.ndarray) -> list[tuple[int, np.ndarray]]:
+        """(code, rows) of each package code >= 0 in ``package``, ascending; kept for the core configurations' own."""
+        if package is self.core_package and self._core_rows is not None:
+            return self._core_rows
+        out = [(code, np.flatnonzero(package == code)) for code in np.unique(package[package >= 0]).tolist()]
+        if package is self.core_package:
+            self._core_rows = out
+        return out
+
+    def _ladder(self, source_package: int, devices: int, code: int) -> list[tuple[int, np.ndarray, np.ndarray]]:
+        """Per mounting class c: the suitable heatsinks' Rth_sa ascending and the running least cost along it, after an inf.
+
+        Suitable: it holds ``devices``, mounts package ``code`` and the
+        sources' package (``source_package`` >= 0), and is of class c.
+        """
+        key = (source_package, devices, code)
+        out = self._ladders.get(key)
+        if out is None:
+            ok = (self.max_devices >= devices) & self.holds[:, code]
+            if source_package >= 0:
+                ok &= self.holds[:, source_package]
+            out = []
             for c in np.unique(self.class_i[ok]).tolist():
                 m = np.flatnonzero(ok & (self.class_i == c))
                 m = m[np.argsort(self.rth[m], kind="stable")]
-                running = np.minimum.accumulate(self.cost[m])
-                at = np.searchsorted(self.rth[m], limits[rows, c], side="right")
-                out[rows] = np.minimum(out[rows], np.where(at > 0, running[np.maximum(at - 1, 0)], np.inf))
+                out.append((c, self.rth[m], np.concatenate(([np.inf], np.minimum.accumulate(self.cost[m])))))
+            self._ladders[key] = out
         return out
 
     def own(self, limits: np.ndarray) -> np.ndarray:

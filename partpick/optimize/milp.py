@@ -29,6 +29,7 @@ import math
 import os
 import shutil
 import signal
+import subprocess
 import tempfile
 import threading
 import time
@@ -265,6 +266,13 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
     (:class:`_Watchdog`) and the solve raises
     :class:`~partpick.errors.SolverTimeout`, as one that found no design by
     then: its callers fall back on the best design they hold.
+
+    The bundled CBC 2.10.3, with preprocessing off, proves some models
+    infeasible while it tightens their bounds ("Problem is infeasible -
+    tightenPrimalBounds!") and then dies (segmentation fault) writing its
+    answer file. So a CBC run that dies is repeated on the same model file
+    and options without an answer file (:func:`_cbc_verdict`); when that run
+    ends normally saying the problem is infeasible, the solve is infeasible.
     """
     other = "highs" if name == "cbc" else "cbc"
     if not sol.available():
@@ -282,6 +290,9 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
     except pulp.PulpSolverError:
         if dog is not None and dog.fired:
             raise SolverTimeout(limit) from None
+        if name == "cbc" and _cbc_verdict(sol, folder, limit) == "infeasible":
+            m.assignStatus(pulp.LpStatusInfeasible, pulp.LpSolutionInfeasible)
+            return m.status
         raise SolverError(
             f"the {name} solver stopped abnormally (it crashed or was killed) and gave no design; "
             f"run again or use --solver {other}"
@@ -291,6 +302,29 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
             dog.cancel()
         sol.options = options
         shutil.rmtree(folder, ignore_errors=True)
+
+
+def _cbc_verdict(sol, folder: str, limit: float | None) -> str | None:
+    """"infeasible" when the CBC program, run again on the model file in ``folder`` without an answer file, ends saying so; else None.
+
+    The same program, model and options (priorities included) as the run
+    that died; its output is read from a pipe, which a crash would have
+    cut short. Under a time limit the repeat gets the same limit and is
+    stopped past it, with no verdict.
+    """
+    models = [f for f in os.listdir(folder) if f.endswith(".mps")]
+    if len(models) != 1:
+        return None
+    args = [sol.path, os.path.join(folder, models[0])] + " ".join(f"-{o}" for o in sol.options).split()
+    if limit:
+        args += ["-sec", str(limit), "-timeMode", "elapsed"]
+    try:
+        out = subprocess.run(args + ["-solve"], capture_output=True, text=True, cwd=folder,
+                             timeout=None if not limit else limit + OVERRUN_GRACE_S + OVERRUN_SHARE * limit)
+    except (OSError, subprocess.SubprocessError):
+        return None
+    said = [line for line in out.stdout.splitlines() if line.startswith(("Problem is infeasible", "Result - Problem proven infeasible"))]
+    return "infeasible" if out.returncode == 0 and said else None
 
 
 def _priorities(m: pulp.LpProblem, first: list[pulp.LpVariable], folder: str) -> str:

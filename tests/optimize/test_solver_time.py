@@ -9,13 +9,14 @@ from __future__ import annotations
 import sys
 import time
 
+import numpy as np
 import pulp
 import pytest
 from solver_fakes import fake_cbc
 
 from partpick.errors import SolverTimeout
 from partpick.optimize import milp
-from partpick.optimize.milp import Group, Offer, Problem
+from partpick.optimize.milp import Coupling, Group, Offer, Problem
 
 
 def test_a_threshold_without_a_design_is_answered_without_prices(monkeypatch) -> None:
@@ -89,3 +90,62 @@ def test_without_a_time_limit_no_watchdog_runs(monkeypatch) -> None:
     assert started == []
     assert milp._run(m, milp._solver("cbc", 30.0), "cbc") == pulp.LpStatusOptimal
     assert len(started) == 1 and not started[0].fired
+
+
+def _infeasible_at_the_bounds() -> Problem:
+    """Hand-worked: g0-1 alone meets the coupling 2 x >= 1, and needs 3 units of L0 per board; g1-0 needs 0.5.
+
+    With a factor of 5 (five boards), g0-1 and g1-0 need 15 + 2.5 = 17.5
+    units of L0, and S0, its only seller, holds 15: no design.
+    """
+    g0 = Group("g0", ["g0-0", "g0-1"], [[], [("L0", 3.0, "role0")]])
+    g1 = Group("g1", ["g1-0"], [[("L0", 0.5, "role1")]], parent="g0", compat=[np.array([0, 1])])
+    couplings = [Coupling("c0", {"g0": np.array([0.0, 2.0])}, ">=", 1.0), Coupling("c1", {"g1": np.array([0.0])}, "<=", 0.0)]
+    offers = {"L0": [Offer("S0", 1, 0.2, 15, 1)], "L1": [Offer("S0", 1, 0.2, 6, 1)]}
+    return Problem({"g0": g0, "g1": g1}, couplings, offers, {"S0": 5.0, "S1": 5.0, "S2": 5.0}, 5.0)
+
+
+@pytest.mark.parametrize("prune", [False, True])
+def test_a_problem_without_a_design_is_infeasible_where_cbc_dies_writing_its_answer(prune: bool) -> None:
+    """The bundled CBC 2.10.3 proves this model infeasible while tightening its bounds, then dies writing its answer
+    file (with preprocessing off, as partpick runs it). The solve says infeasible, as the hand count above does."""
+    assert milp.solve(_infeasible_at_the_bounds(), "cbc", prune=prune).status == "infeasible"
+
+
+def _dies_writing_its_answer(folder) -> str:
+    """A fake CBC program: given an answer file, it runs the real one without it, then dies (SIGSEGV); else it is the real one."""
+    script = folder / "dies.py"
+    script.write_text(
+        "import os, signal, subprocess, sys\n"
+        f"real = {str(pulp.PULP_CBC_CMD.pulp_cbc_path)!r}\n"
+        "args = sys.argv[1:]\n"
+        "if '-solution' in args:\n"
+        "    i = args.index('-solution')\n"
+        "    subprocess.run([real] + args[:i] + args[i + 2:], stdout=subprocess.DEVNULL)\n"
+        "    os.kill(os.getpid(), signal.SIGSEGV)\n"
+        "os.execv(real, [real] + args)\n",
+        encoding="utf-8",
+    )
+    return f"exec '{sys.executable}' '{script}' \"$@\"\n"
+
+
+def test_a_cbc_run_that_dies_is_read_again_only_for_cbc_s_own_infeasible(tmp_path, monkeypatch) -> None:
+    """A CBC program that dies after solving: on an infeasible model (x binary, x >= 2) the run again says infeasible,
+    and the solve is infeasible; on a feasible one (x >= 0) it says optimal, and the solve is a solver error."""
+    from partpick.errors import SolverError
+
+    monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, _dies_writing_its_answer(tmp_path))))
+    for rhs, limit in [(2, None), (2, 30.0), (0, None)]:
+        m = pulp.LpProblem("t", pulp.LpMinimize)
+        x = pulp.LpVariable("x", 0, 1, cat="Integer")
+        y = pulp.LpVariable("y", 0, 3, cat="Integer")
+        m += x + y
+        m += x + 0.5 * y >= rhs + 0.6  # rhs 2: at most 1 + 1.5 = 2.5 < 2.6, no integer point; rhs 0: x = 1
+        m += x - y <= 5
+        if rhs:
+            assert milp._run(m, milp._solver("cbc", limit), "cbc") == pulp.LpStatusInfeasible
+            assert not milp._found(m, limit)
+        else:
+            with pytest.raises(SolverError, match="stopped abnormally"):
+                milp._run(m, milp._solver("cbc", limit), "cbc")
+    assert milp._children_naming("partpick-solve-") == []
