@@ -83,7 +83,7 @@ FIRST_DESIGN_TRY_S = 5.0
 #: (:func:`_free_sellers`), capped at ``FREE_SELLERS_TRY_S`` seconds (a
 #: quarter of what is left under a time limit). On the large benchmark
 #: catalogue (100 suppliers, 13 without a fee) that try found the optimum of
-#: 80.13 EUR, one fee-free supplier more than the 82.57 EUR start, in 6 s; the
+#: 80.13 EUR, one fee-free supplier more than the 82.57 EUR start, in 2 to 6 s; the
 #: full solve of the same problem from the 82.57 EUR design took 440 s to
 #: find and prove it, from the 80.13 EUR design 48 s. With few suppliers the
 #: set bounds and :func:`_first_design` already lead to the cheapest sets
@@ -203,6 +203,9 @@ def _solver(name: str, time_limit: float | None, warm: bool = False):
 #: after 30 s was heeded after 251 s.
 OVERRUN_GRACE_S = 1.0
 OVERRUN_SHARE = 0.05
+#: A CBC run that died is repeated for its verdict (:func:`_cbc_verdict`) for
+#: at most twice as long as it ran, plus this many seconds.
+VERDICT_EXTRA_S = 5.0
 
 
 class _Watchdog:
@@ -286,11 +289,12 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
     try:
         if first and name == "cbc":
             sol.options = options + [f"priorityIn {_priorities(m, first, folder)}"]
+        began = time.monotonic()
         return m.solve(sol)
     except pulp.PulpSolverError:
         if dog is not None and dog.fired:
             raise SolverTimeout(limit) from None
-        if name == "cbc" and _cbc_verdict(sol, folder, limit) == "infeasible":
+        if name == "cbc" and _cbc_verdict(sol, folder, limit, time.monotonic() - began) == "infeasible":
             m.assignStatus(pulp.LpStatusInfeasible, pulp.LpSolutionInfeasible)
             return m.status
         raise SolverError(
@@ -304,13 +308,14 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
         shutil.rmtree(folder, ignore_errors=True)
 
 
-def _cbc_verdict(sol, folder: str, limit: float | None) -> str | None:
+def _cbc_verdict(sol, folder: str, limit: float | None, spent: float) -> str | None:
     """"infeasible" when the CBC program, run again on the model file in ``folder`` without an answer file, ends saying so; else None.
 
     The same program, model and options (priorities included) as the run
-    that died; its output is read from a pipe, which a crash would have
-    cut short. Under a time limit the repeat gets the same limit and is
-    stopped past it, with no verdict.
+    that died after ``spent`` seconds; its output is read from a pipe, which
+    a crash would have cut short. The repeat is stopped, with no verdict,
+    after twice that plus :data:`VERDICT_EXTRA_S` (a death after a long
+    search is not worth a second one), and it keeps the time limit.
     """
     models = [f for f in os.listdir(folder) if f.endswith(".mps")]
     if len(models) != 1:
@@ -319,8 +324,7 @@ def _cbc_verdict(sol, folder: str, limit: float | None) -> str | None:
     if limit:
         args += ["-sec", str(limit), "-timeMode", "elapsed"]
     try:
-        out = subprocess.run(args + ["-solve"], capture_output=True, text=True, cwd=folder,
-                             timeout=None if not limit else limit + OVERRUN_GRACE_S + OVERRUN_SHARE * limit)
+        out = subprocess.run(args + ["-solve"], capture_output=True, text=True, cwd=folder, timeout=2.0 * spent + VERDICT_EXTRA_S)
     except (OSError, subprocess.SubprocessError):
         return None
     said = [line for line in out.stdout.splitlines() if line.startswith(("Problem is infeasible", "Result - Problem proven infeasible"))]
@@ -882,7 +886,8 @@ def _free_sellers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, 
     only ``keep`` options) holds ``best`` and often a cheaper design: with
     many suppliers, the full solve's search rarely reaches the sets the
     restriction solves in seconds. Skipped when every fee-free supplier is
-    among ``best``'s or the set is in ``tried`` (then added to it). The try
+    among ``best``'s, or when ``tried`` holds the set (a set solved is added
+    to it). The try
     is capped at :data:`FREE_SELLERS_TRY_S` (a quarter of ``left`` under a
     time limit). The design returned is one of the whole problem, not
     proven optimal.

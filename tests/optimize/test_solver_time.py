@@ -51,6 +51,15 @@ def test_a_threshold_without_a_design_is_answered_without_prices(monkeypatch) ->
     assert log[-1] == ("full", "optimal")
 
 
+def _one_binary() -> pulp.LpProblem:
+    """min x, x binary, x >= 0: optimal at x = 0."""
+    m = pulp.LpProblem("t", pulp.LpMinimize)
+    x = pulp.LpVariable("x", 0, 1, cat="Binary")
+    m += x
+    m += x >= 0
+    return m
+
+
 def _waits() -> str:
     """A fake CBC program that keeps its arguments (the solve's folder among them) and waits a minute."""
     return f"exec '{sys.executable}' -c 'import time; time.sleep(60)' \"$@\"\n"
@@ -61,10 +70,7 @@ def test_a_cbc_run_past_its_time_limit_is_stopped(tmp_path, monkeypatch) -> None
     solve says it ran out of time, not that the solver crashed."""
     monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, _waits())))
     monkeypatch.setattr(milp, "OVERRUN_GRACE_S", 0.2)
-    m = pulp.LpProblem("t", pulp.LpMinimize)
-    x = pulp.LpVariable("x", 0, 1, cat="Binary")
-    m += x
-    m += x >= 0
+    m = _one_binary()
     began = time.monotonic()
     with pytest.raises(SolverTimeout) as info:
         milp._run(m, milp._solver("cbc", 0.5), "cbc")
@@ -82,10 +88,7 @@ def test_without_a_time_limit_no_watchdog_runs(monkeypatch) -> None:
         return real(self)
 
     monkeypatch.setattr(milp._Watchdog, "start", spy)
-    m = pulp.LpProblem("t", pulp.LpMinimize)
-    x = pulp.LpVariable("x", 0, 1, cat="Binary")
-    m += x
-    m += x >= 0
+    m = _one_binary()
     assert milp._run(m, milp._solver("cbc", None), "cbc") == pulp.LpStatusOptimal
     assert started == []
     assert milp._run(m, milp._solver("cbc", 30.0), "cbc") == pulp.LpStatusOptimal
@@ -148,4 +151,21 @@ def test_a_cbc_run_that_dies_is_read_again_only_for_cbc_s_own_infeasible(tmp_pat
         else:
             with pytest.raises(SolverError, match="stopped abnormally"):
                 milp._run(m, milp._solver("cbc", limit), "cbc")
+    assert milp._children_naming("partpick-solve-") == []
+
+
+def test_the_run_again_for_a_verdict_is_stopped_after_twice_the_first_run(tmp_path, monkeypatch) -> None:
+    """A CBC program that dies at once given an answer file, and otherwise waits a minute: the run again for its verdict
+    is stopped after twice the first run plus ``VERDICT_EXTRA_S`` (0.5 s here), and the solve is a solver error."""
+    from partpick.errors import SolverError
+
+    body = ('for a in "$@"; do [ "$a" = "-solution" ] && kill -SEGV $$; done\n'
+            f"exec '{sys.executable}' -c 'import time; time.sleep(60)' \"$@\"\n")  # its arguments name the solve's folder
+    monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, body)))
+    monkeypatch.setattr(milp, "VERDICT_EXTRA_S", 0.5)
+    m = _one_binary()
+    began = time.monotonic()
+    with pytest.raises(SolverError, match="stopped abnormally"):
+        milp._run(m, milp._solver("cbc", None), "cbc")
+    assert time.monotonic() - began < 20.0  # the fake would wait 60 s
     assert milp._children_naming("partpick-solve-") == []
