@@ -447,10 +447,10 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
     best: DesignResult | None = None  # the cheapest design found, not yet proven
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
     splits = 0
-    built = 0.0  # seconds the last table took to build (its stage table and assembly)
+    last = 0.0  # seconds the last round took: its table (stage table and assembly) and its solve
     while True:
-        if best is not None and deadline is not None and deadline - _clock() < built:
-            # The next table is larger than the last, and no time would be left to solve it.
+        if best is not None and deadline is not None and deadline - _clock() < last:
+            # The next table is larger than the last: no time would be left to build and solve it.
             return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
         began = _clock()
         try:
@@ -465,7 +465,6 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
             continue
         done = threshold
         asm = assemble(spec, pool, targets, stage)
-        built = _clock() - began
         status = "infeasible" if asm is None or asm.problem is None else "prepared"
         if status == "prepared" and search.forbidden:
             forbid_parts(asm, search.forbidden)
@@ -478,6 +477,7 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
                 return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
             try:
                 result = _forced_finish(result, forced, solver, left, _carried(best, asm))
+                last = _clock() - began
             except SolverTimeout:
                 if best is None:
                     raise SolverTimeout(time_limit) from None

@@ -212,18 +212,20 @@ def test_a_bounded_searchs_time_limit_counts_its_bounds(past_limit, catalog, mon
     assert isinstance(timed.search, BoundedSearch) and timed.search.fits is not past_limit
 
 
-@pytest.mark.parametrize("limit", [80.0, 100.0])
-def test_no_larger_table_is_built_with_less_time_left_than_the_last_one_took(limit, catalog, monkeypatch) -> None:
-    """A table that takes longer to build than the time left is not started: the design in hand comes back unproven.
+@pytest.mark.parametrize("limit", [125.0, 140.0])
+def test_no_larger_table_is_built_with_less_time_left_than_the_last_round_took(limit, catalog, monkeypatch) -> None:
+    """A table there is no time to build and solve is not started: the design in hand comes back unproven.
 
     From a first table of one candidate row (``CHOICE_FIRST_ROWS``), the 22 W
     current-source bench design takes two tables: the first holds a design
     above its threshold, the second proves the whole table's optimum. The
     fake clock moves 30 s at each assembly (the relaxed table's, then each
-    table's). Under 80 s, 20 s are left after the first table, less than the
-    30 s it took: the search stops there, with one table built and its
-    design marked not proven. Under 100 s, 40 s are left, the second table
-    is built, and the design is the whole table's optimum.
+    table's) and 20 s at each table's solve, so the first round takes 50 s
+    and ends at 80 s. Under 125 s, 45 s are left, less than that round: the
+    search stops there, with one table built and its design marked not
+    proven (45 s would do for the build alone). Under 140 s, 60 s are
+    left, the second table is built, and the design is the whole table's
+    optimum.
     """
     from partpick.optimize import milp
 
@@ -233,20 +235,25 @@ def test_no_larger_table_is_built_with_less_time_left_than_the_last_one_took(lim
     monkeypatch.setattr(design, "CHOICE_FIRST_ROWS", 1)
     clock = _FakeClock()
     monkeypatch.setattr(milp, "_clock", clock)
-    real, tables = design.assemble, []
+    real_assemble, real_finish, tables = design.assemble, design._forced_finish, []
 
     def slow_assembly(spec, pool, targets, stage, **kwargs):
         clock.now += 30.0
         tables.append(stage.cost_bound)
-        return real(spec, pool, targets, stage, **kwargs)
+        return real_assemble(spec, pool, targets, stage, **kwargs)
+
+    def slow_solve(*args, **kwargs):
+        clock.now += 20.0
+        return real_finish(*args, **kwargs)
 
     monkeypatch.setattr(design, "assemble", slow_assembly)
+    monkeypatch.setattr(design, "_forced_finish", slow_solve)
     timed = run(spec, catalog, time_limit=limit)
     built = [b for b in tables if b is not None]  # the relaxed table has no cost bound
-    if limit == 80.0:
+    if limit == 125.0:
         assert len(built) == 1
         assert timed.status == "not proven optimal" and timed.solution.total > want + 1e-6
-        assert "the time limit (80 s) ran out before it was proven" in timed.warnings[-1]
+        assert "the time limit (125 s) ran out before it was proven" in timed.warnings[-1]
     else:
         assert len(built) == 2
         assert timed.status == "ok" and timed.solution.total == pytest.approx(want, abs=1e-6)
