@@ -451,7 +451,8 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
     while True:
         if best is not None and deadline is not None and deadline - _clock() < last:
             # The next table is larger than the last: no time would be left to build and solve it.
-            return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
+            return _unproven(best, f"less of the time limit ({time_limit:g} s) was left than the last round took, "
+                                   f"so the next, larger round to prove it was not started")
         began = _clock()
         try:
             stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
