@@ -203,7 +203,7 @@ def _solver(name: str, time_limit: float | None, warm: bool = False):
 #: after 30 s was heeded after 251 s.
 OVERRUN_GRACE_S = 1.0
 OVERRUN_SHARE = 0.05
-#: A CBC run that died is repeated for its verdict (:func:`_cbc_verdict`) for
+#: A CBC run that died is repeated for its verdict (:func:`_cbc_says_infeasible`) for
 #: at most twice as long as it ran, plus this many seconds.
 VERDICT_EXTRA_S = 5.0
 
@@ -274,7 +274,7 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
     infeasible while it tightens their bounds ("Problem is infeasible -
     tightenPrimalBounds!") and then dies (segmentation fault) writing its
     answer file. So a CBC run that dies is repeated on the same model file
-    and options without an answer file (:func:`_cbc_verdict`); when that run
+    and options without an answer file (:func:`_cbc_says_infeasible`); when that run
     ends normally saying the problem is infeasible, the solve is infeasible.
     """
     other = "highs" if name == "cbc" else "cbc"
@@ -294,7 +294,7 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
     except pulp.PulpSolverError:
         if dog is not None and dog.fired:
             raise SolverTimeout(limit) from None
-        if name == "cbc" and _cbc_verdict(sol, folder, limit, time.monotonic() - began) == "infeasible":
+        if name == "cbc" and _cbc_says_infeasible(sol, folder, limit, time.monotonic() - began):
             m.assignStatus(pulp.LpStatusInfeasible, pulp.LpSolutionInfeasible)
             return m.status
         raise SolverError(
@@ -308,27 +308,27 @@ def _run(m: pulp.LpProblem, sol, name: str, first: list[pulp.LpVariable] | None 
         shutil.rmtree(folder, ignore_errors=True)
 
 
-def _cbc_verdict(sol, folder: str, limit: float | None, spent: float) -> str | None:
-    """"infeasible" when the CBC program, run again on the model file in ``folder`` without an answer file, ends saying so; else None.
+def _cbc_says_infeasible(sol, folder: str, limit: float | None, spent: float) -> bool:
+    """Whether the CBC program, run again on the model file in ``folder`` without an answer file, ends saying the problem is infeasible.
 
     The same program, model and options (priorities included) as the run
     that died after ``spent`` seconds; its output is read from a pipe, which
     a crash would have cut short. The repeat is stopped, with no verdict,
     after twice that plus :data:`VERDICT_EXTRA_S` (a death after a long
-    search is not worth a second one), and it keeps the time limit.
+    search is not worth a second one: then False), and it keeps the time limit.
     """
     models = [f for f in os.listdir(folder) if f.endswith(".mps")]
     if len(models) != 1:
-        return None
+        return False
     args = [sol.path, os.path.join(folder, models[0])] + " ".join(f"-{o}" for o in sol.options).split()
     if limit:
         args += ["-sec", str(limit), "-timeMode", "elapsed"]
     try:
         out = subprocess.run(args + ["-solve"], capture_output=True, text=True, cwd=folder, timeout=2.0 * spent + VERDICT_EXTRA_S)
     except (OSError, subprocess.SubprocessError):
-        return None
-    said = [line for line in out.stdout.splitlines() if line.startswith(("Problem is infeasible", "Result - Problem proven infeasible"))]
-    return "infeasible" if out.returncode == 0 and said else None
+        return False
+    return out.returncode == 0 and any(line.startswith(("Problem is infeasible", "Result - Problem proven infeasible"))
+                                       for line in out.stdout.splitlines())
 
 
 def _priorities(m: pulp.LpProblem, first: list[pulp.LpVariable], folder: str) -> str:
@@ -745,7 +745,8 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                 left = None if deadline is None else deadline - _clock()
                 if left is not None and left <= 0:
                     return _out_of_time(best, time_limit)
-            if best is None and by_set is not None and sum(len(k) for k in keep.values()) >= FIRST_DESIGN_MIN_OPTIONS:
+            large = sum(len(k) for k in keep.values()) >= FIRST_DESIGN_MIN_OPTIONS
+            if best is None and by_set is not None and large:
                 best = _first_design(problem, keep, tie, solver, by_set, left)
                 if best is not None:
                     reach = objective_value(problem, best) + _tie_margin(problem, best)
@@ -757,7 +758,7 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
                 left = None if deadline is None else deadline - _clock()
                 if left is not None and left <= 0:
                     return _out_of_time(best, time_limit)
-            if best is not None and by_set is None and sum(len(k) for k in keep.values()) >= FIRST_DESIGN_MIN_OPTIONS:
+            if best is not None and by_set is None and large:
                 better = _free_sellers(problem, keep, tie, solver, best, tried, left)
                 if better is not None:
                     best = better
@@ -919,9 +920,9 @@ def _with_suppliers(problem: Problem, tie: dict[str, np.ndarray], solver: str, a
     design could hold one), and a group left without options ends the try
     at once: the solver's first linear programme, which its time limit does
     not interrupt, took 76 s to find such a try infeasible on the large
-    benchmark catalogue. ``start``: a design of ``problem`` to start from
-    (:func:`solve_model`'s), used when it buys from ``allowed`` suppliers
-    alone and holds none of the options left out.
+    benchmark catalogue. ``start``: a design of ``problem`` that buys from
+    ``allowed`` suppliers alone, to start from (:func:`solve_model`'s),
+    used when it holds none of the options left out.
     """
     from partpick.optimize.prune import restrict
 
@@ -934,17 +935,10 @@ def _with_suppliers(problem: Problem, tie: dict[str, np.ndarray], solver: str, a
         return None
     try:
         found = solve_model(restrict(narrow, keep), {g: tie[g][keep[g]] for g in tie}, solver, time_limit,
-                            start=_starting(start, keep, allowed))
+                            start=_within(start, keep))
     except SolverTimeout:
         return None
     return None if found.status == "infeasible" else _lift(found, keep)
-
-
-def _starting(start: Solution | None, keep: dict[str, np.ndarray], allowed) -> Solution | None:
-    """``start`` in the indices of the ``keep`` options, when it holds only those and buys from ``allowed`` suppliers alone; else None."""
-    if start is None or not set(start.suppliers_used) <= set(allowed):
-        return None
-    return _within(start, keep)
 
 
 def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
