@@ -36,6 +36,10 @@ _LINE_ENDS = (b"\n", b"\r", b"\x0b", b"\x0c", b"\x1c", b"\x1d", b"\x1e", b"\xc2\
 #: Largest cell [characters].
 MAX_CELL_CHARS = 4096
 
+#: Most part names one catalogue-wide warning lists; the rest are counted (a
+#: large export can leave thousands of rows without offers or SOA curves).
+LISTED_MAX = 10
+
 PART_FILES = ("transistors.csv", "opamps.csv", "regulators.csv", "heatsinks.csv", "diodes.csv")
 
 
@@ -493,17 +497,25 @@ def _cross_checks(folder: Path, frames: dict[str, pd.DataFrame], warnings: list[
         key = "family" if name == "passives.csv" else "mpn"
         missing = [m for m in frames[name][key].tolist() if m not in offered]
         if missing:
-            warnings.append(f"{name}: no offer for {', '.join(missing)}: these cannot be chosen")
+            what = "families" if key == "family" else "parts"
+            warnings.append(f"{name}: no offer for {len(missing):,} {what} ({listed(missing)}): these cannot be chosen")
     from partpick.catalog.plausibility import plausibility_warnings
 
     warnings.extend(plausibility_warnings(str(folder), frames))
     no_soa = frames["transistors.csv"].loc[frames["transistors.csv"]["soa_dc"].isna(), "mpn"]
     if len(no_soa):
         warnings.append(
-            "transistors.csv: no second-breakdown data (soa_dc) for "
-            f"{', '.join(no_soa)}: their SOA is the Ic/Pd/Vceo boundary only"
+            f"transistors.csv: no second-breakdown data (soa_dc) for {len(no_soa):,} transistors "
+            f"({listed(no_soa.tolist())}): their SOA is the Ic/Pd/Vceo boundary only"
         )
     return problems
+
+
+def listed(names: list[str]) -> str:
+    """``names`` for a warning: the first :data:`LISTED_MAX`, then how many more (``"A, B and 12 more"``)."""
+    rest = len(names) - LISTED_MAX
+    shown = ", ".join(names[:LISTED_MAX])
+    return shown if rest <= 0 else f"{shown} and {rest:,} more"
 
 
 def _transistor_checks(label: str, tr: pd.DataFrame) -> list[Problem]:

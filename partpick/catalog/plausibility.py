@@ -38,7 +38,14 @@ RULES = (
 
 
 def plausibility_warnings(folder: str, frames: dict[str, pd.DataFrame]) -> list[str]:
-    """Sentences ``file:line: column: value: reason`` for every suspicious value."""
+    """Sentences ``file:line: column: value: reason`` for each suspicious value.
+
+    Each rule names its first :data:`~partpick.catalog.loader.LISTED_MAX`
+    rows; past them, one more sentence counts the rest and gives their
+    lines' range (a unit slip in an export can flag thousands of rows).
+    """
+    from partpick.catalog.loader import LISTED_MAX
+
     out = []
     for name, column, test, sentence in RULES:
         f = frames[name]
@@ -46,7 +53,12 @@ def plausibility_warnings(folder: str, frames: dict[str, pd.DataFrame]) -> list[
             continue
         with np.errstate(all="ignore"):
             mask = np.asarray(test(f).fillna(False), dtype=bool)
-        for row in f[mask].to_dict("records"):
+        flagged = f[mask]
+        for row in flagged.iloc[:LISTED_MAX].to_dict("records"):
             text = sentence.format(**{k: v for k, v in row.items() if isinstance(k, str)})
             out.append(f"{folder}/{name}:{row['line']}: {column}: {row[column]:g} looks implausible ({text})")
+        if len(flagged) > LISTED_MAX:
+            rest = flagged["line"].iloc[LISTED_MAX:]
+            out.append(f"{folder}/{name}: {column}: {len(rest):,} more rows look implausible the same way "
+                       f"(lines {int(rest.min())} to {int(rest.max())})")
     return out

@@ -158,6 +158,18 @@ def check_selection(
         if not spec.stage.bias_tracking:
             m[role].append(Margin("thermal loop gain", LOOP_GAIN_MAX - loop, "", LOOP_GAIN_MAX))
 
+    # Section 5 without a DC SOA curve: the Ic/Pd/Vceo boundary lies above the
+    # real one where second breakdown sets in, so the margin may be optimistic.
+    no_curve = [d["mpn"] for d in dev.values() if not len(d["soa_v"])]
+    if feed == "current_source":
+        no_curve += [t["mpn"] for t in ccs["transistors"] if not len(t["soa_v"])]
+    if no_curve:
+        warnings.append(
+            f"{', '.join(no_curve)}: no DC SOA curve (soa_dc) in the catalogue, so their SOA margins use the Ic, Pd and "
+            f"Vceo limits alone, which overstate the safe area where second breakdown sets in; check them against the "
+            f"datasheet's DC SOA curve before building"
+        )
+
     # Section 7: emitter resistor.
     p_re = float(bias.re_power_w(ip, re_ohm))
     m["emitter_resistor"] = [Margin("power rating", re_rating_w - RESISTOR_POWER_MARGIN * p_re, "W", RESISTOR_POWER_MARGIN * p_re)]
