@@ -435,9 +435,13 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
         """The least threshold under which ``n`` candidate rows lie (the last bound when fewer)."""
         return float(counted[min(n, len(counted)) - 1]) if len(counted) and n > 0 else floor
 
+    def rows_under(at: float) -> int:
+        """The candidate rows whose bound is at or below ``at``."""
+        return int(np.searchsorted(counted, at, side="right"))
+
     def next_up(at: float) -> float:
         """The threshold after ``at``: ROWS_GROWTH times its candidate rows, and BOUND_GROWTH times its distance to the floor at least."""
-        rows = int(np.searchsorted(counted, at, side="right"))
+        rows = rows_under(at)
         return max(floor + BOUND_GROWTH * (at - floor), at_rows(ROWS_GROWTH * max(rows, 1)))
 
     if threshold is None:
@@ -448,11 +452,13 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
     done, past = -math.inf, math.inf  # the highest threshold built, the lowest past the size limit
     splits = 0
     last = 0.0  # seconds the last round took: its table (stage table and assembly) and its solve
+    last_rows = 1  # the candidate rows under that round's threshold
     while True:
-        if best is not None and deadline is not None and deadline - _clock() < last:
-            # The next table is larger than the last: no time would be left to build and solve it.
-            return _unproven(best, f"less of the time limit ({time_limit:g} s) was left than the last round took, "
-                                   f"so the next, larger round to prove it was not started")
+        if best is not None and deadline is not None and deadline - _clock() < last * max(1.0, rows_under(threshold) / last_rows):
+            # No time would be left to build and solve the next table: a round
+            # takes at least as long per candidate row as the last one did.
+            return _unproven(best, f"less of the time limit ({time_limit:g} s) was left than the next, larger round to "
+                                   f"prove it would take at the last round's pace, so it was not started")
         began = _clock()
         try:
             stage = evaluate_stage(spec, pool, targets, feed_bound=replace(bound, threshold=threshold), cores=cores)
@@ -475,18 +481,17 @@ def _bounded_rounds(spec: Spec, pool: Pool, targets: Targets, search: BoundedSea
             if left is not None and left <= 0:
                 if best is None:
                     raise SolverTimeout(time_limit)
-                return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
+                return _unproven(best, _ran_out(time_limit))
             try:
                 result = _forced_finish(result, forced, solver, left, _carried(best, asm))
-                last = _clock() - began
+                last, last_rows = _clock() - began, max(1, rows_under(threshold))
             except SolverTimeout:
                 if best is None:
                     raise SolverTimeout(time_limit) from None
-                return _unproven(best, f"the time limit ({time_limit:g} s) ran out before it was proven")
+                return _unproven(best, _ran_out(time_limit))
             if result.status == "not proven optimal":
-                if best is not None and best.solution.total < result.solution.total:
-                    return _unproven(best, "the time limit ran out before it was proven")
-                return result
+                dearer = best is not None and best.solution.total < result.solution.total
+                return _unproven(best if dearer else result, _ran_out(time_limit))
             if result.status == "ok":
                 reach = objective_value(asm.problem, result.solution) + _tie_margin(asm.problem, result.solution)
                 if reach <= threshold:
@@ -628,6 +633,11 @@ def _unproven(result: DesignResult, why: str) -> DesignResult:
     opening = "partpick builds the current-source stage configurations in order of their cost bound" if fits else _past_limit()
     result.warnings.append(f"{opening}; this design comes from {_bounded_rows(result)}, and {why}")
     return result
+
+
+def _ran_out(time_limit: float | None) -> str:
+    """Why a bounded round's design is not proven: the time limit (named when there is one)."""
+    return "the time limit ran out before it was proven" if time_limit is None else f"the time limit ({time_limit:g} s) ran out before it was proven"
 
 
 def _bounded_rows(result: DesignResult) -> str:

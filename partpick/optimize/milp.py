@@ -87,7 +87,10 @@ FIRST_DESIGN_TRY_S = 5.0
 #: full solve of the same problem from the 82.57 EUR design took 440 s to
 #: find and prove it, from the 80.13 EUR design 48 s. With few suppliers the
 #: set bounds and :func:`_first_design` already lead to the cheapest sets
-#: (on medium seed 3 the try took 0.37 s and found nothing cheaper).
+#: (on medium seed 3 the try took 0.37 s and found nothing cheaper). The
+#: same cap holds :func:`_fee_free_start`, the whole problem with the
+#: fee-free suppliers alone, solved before the loop (on the large
+#: benchmark's first table: 80.13 EUR, proven over those suppliers, in 2.9 s).
 FREE_SELLERS_TRY_S = 15.0
 
 
@@ -637,9 +640,55 @@ def _solve_bounded(problem: Problem, tie: dict[str, np.ndarray], solver: str, ti
         from partpick.optimize.prune import design_bounds
 
         bound = design_bounds(problem)
-    sol = _widen(problem, tie, solver, time_limit, deadline, bound, start)
+    tried: set[frozenset[str]] = set()
+    left = None if deadline is None else deadline - _clock()
+    if left is None or left > 0:
+        start = _fee_free_start(problem, solver, start, left, tried)
+    sol = _widen(problem, tie, solver, time_limit, deadline, bound, start, tried)
     sol.bounds = bound
     return sol
+
+
+def _fee_free_start(problem: Problem, solver: str, start: Solution | None, left: float | None,
+                    tried: set[frozenset[str]]) -> Solution | None:
+    """The cheapest design that buys from the fee-free suppliers alone, when it beats ``start`` (or there is none); else ``start``.
+
+    Taken for problems of at least :data:`FIRST_DESIGN_MIN_OPTIONS` options
+    with more suppliers than :func:`~partpick.optimize.prune.supplier_set_bounds`
+    enumerates, some of them without an order fee and some with one. With
+    the fee-free suppliers alone a problem has no fees left to choose, and
+    the hard part of a many-supplier problem is which fees to pay: it is
+    solved whole (:func:`solve`, every option, pruned), within
+    :data:`FREE_SELLERS_TRY_S` (a quarter of ``left`` under a time limit).
+    Its design is a design of ``problem`` (fewer offers, the same zero
+    fees), returned not proven optimal; a start design makes the threshold
+    loop begin at its cost (:func:`_widen`). When that solve proves its
+    optimum, no restriction to those suppliers can beat it, so their set
+    is added to ``tried`` (the sets :func:`_free_sellers` does not solve).
+    """
+    from partpick.optimize.prune import FEE_SUBSETS_MAX_SUPPLIERS
+
+    free = frozenset(s for s, fee in problem.fees.items() if fee <= 0.0)
+    options = sum(len(g) for g in problem.groups.values())
+    if (not free or len(free) == len(problem.fees) or len(problem.fees) <= FEE_SUBSETS_MAX_SUPPLIERS
+            or options < FIRST_DESIGN_MIN_OPTIONS):
+        return start
+    narrow = replace(problem, line_offers={line: [o for o in offers if o.supplier in free] for line, offers in problem.line_offers.items()},
+                     fees={s: problem.fees[s] for s in free})
+    cap = FREE_SELLERS_TRY_S if left is None else min(FREE_SELLERS_TRY_S, 0.25 * left)
+    try:
+        found = solve(narrow, solver, cap)
+    except SolverTimeout:
+        return start
+    if found.status == "infeasible":
+        return start
+    if found.status == "optimal":
+        tried.add(free)
+    found.bounds = None
+    if start is not None and objective_value(problem, found) >= objective_value(problem, start) - 1e-9:
+        return start
+    found.status = "not proven optimal"
+    return found
 
 
 def _solve_fewest_changes(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None) -> Solution:
@@ -681,7 +730,7 @@ def _solve_fewest_changes(problem: Problem, tie: dict[str, np.ndarray], solver: 
 
 
 def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit: float | None, deadline: float | None,
-           bound: dict[str, np.ndarray], start: Solution | None = None) -> Solution:
+           bound: dict[str, np.ndarray], start: Solution | None = None, tried: set[frozenset[str]] | None = None) -> Solution:
     """:func:`_solve_bounded`'s threshold loop over the options' cost bounds ``bound``.
 
     With a ``start`` design of cost z, the first threshold is z + margin
@@ -709,7 +758,7 @@ def _widen(problem: Problem, tie: dict[str, np.ndarray], solver: str, time_limit
     # threshold, so a set of that size is the same set, and is not solved again.
     no_design = -1
     last = 0.0  # seconds the last threshold solve took
-    tried: set[frozenset[str]] = set()  # supplier sets _free_sellers has solved
+    tried = set() if tried is None else tried  # supplier sets _free_sellers need not solve (it adds those it solved)
     while True:
         # Children whose every compatible parent lies above the threshold cannot be held either.
         inside = reduce.with_parents(problem, {g: np.flatnonzero(b <= threshold) for g, b in bound.items()})

@@ -545,6 +545,80 @@ def test_free_sellers_keep_to_the_options_given_by_hand() -> None:
     assert tried == {frozenset({"P", "F1", "F2"})}  # solved, and nothing cheaper found
 
 
+def test_fee_free_start_by_hand(monkeypatch) -> None:
+    """_fee_free_problem with the fee-free F1 and F2 alone: a1 + b0 at 1.50, proven, so their set needs no later try.
+
+    Past the size floor and the set-bound limit only (both lowered here: the
+    problem has 3 options and 3 suppliers); a start no dearer is kept.
+    """
+    from partpick.optimize import milp
+
+    p = _fee_free_problem()
+    solved = []
+    real = milp.solve
+
+    def spy(problem, solver="cbc", time_limit=None, *a, **k):
+        solved.append(sorted(problem.fees))
+        return real(problem, solver, time_limit, *a, **k)
+
+    monkeypatch.setattr(milp, "solve", spy)
+    tried: set[frozenset[str]] = set()
+    assert milp._fee_free_start(p, "cbc", None, None, tried) is None  # 3 suppliers: the set bounds cover them
+    monkeypatch.setattr(prune, "FEE_SUBSETS_MAX_SUPPLIERS", 3)
+    monkeypatch.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 3)
+    assert milp._fee_free_start(p, "cbc", None, None, tried) is None  # still: they enumerate 3
+    monkeypatch.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 4)
+    monkeypatch.setattr(prune, "FEE_SUBSETS_MAX_SUPPLIERS", 2)
+    assert milp._fee_free_start(p, "cbc", None, None, tried) is None  # 3 options, under the size floor of 4
+    assert solved == [] and tried == set()
+    monkeypatch.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 3)
+    found = milp._fee_free_start(p, "cbc", None, 60.0, tried)
+    assert solved == [["F1", "F2"]]
+    assert found.total == pytest.approx(1.5) and found.fees_cost == 0.0 and found.choice == {"a": 1, "b": 0}
+    assert found.status == "not proven optimal" and found.bounds is None
+    assert tried == {frozenset({"F1", "F2"})}
+    dear = milp._with_suppliers(p, tie_weights(p), "cbc", {"P"}, 10.0)
+    assert dear.total == pytest.approx(7.0)
+    assert milp._fee_free_start(p, "cbc", dear, None, set()).total == pytest.approx(1.5)  # cheaper than the start
+    assert milp._fee_free_start(p, "cbc", found, None, set()) is found  # no cheaper: the start stays
+    every_free = replace(p, fees={s: 0.0 for s in p.fees})
+    assert milp._fee_free_start(every_free, "cbc", None, None, set()) is None  # no fee to leave out
+    assert len(solved) == 3
+    whole = real(p, "cbc")
+    assert whole.status == "optimal" and whole.total == pytest.approx(1.5)
+
+
+@settings(**SETTINGS)
+@given(problems(), st.data())
+def test_fee_free_start_is_the_brute_force_optimum_with_the_fee_free_suppliers_alone(problem: Problem, data) -> None:
+    """Without a start, the step's design is the brute force's optimum over the fee-free suppliers' offers (None: they hold no design).
+
+    It meets every rule of the whole problem, and the fee-free set is
+    marked as tried exactly when the step's solve proved its optimum.
+    """
+    from partpick.optimize import milp
+
+    names = sorted(problem.fees)
+    assume(len(names) >= 2)
+    free = data.draw(st.sets(st.sampled_from(names), min_size=1, max_size=len(names) - 1))
+    problem = replace(problem, fees={s: 0.0 if s in free else max(fee, 1.0) for s, fee in problem.fees.items()})
+    narrow = replace(problem, line_offers={line: [o for o in offs if o.supplier in free] for line, offs in problem.line_offers.items()},
+                     fees={s: 0.0 for s in free})
+    exact = brute_force(narrow)
+    tried: set[frozenset[str]] = set()
+    with pytest.MonkeyPatch.context() as m:
+        m.setattr(milp, "FIRST_DESIGN_MIN_OPTIONS", 0)
+        m.setattr(prune, "FEE_SUBSETS_MAX_SUPPLIERS", 0)
+        found = milp._fee_free_start(problem, "cbc", None, None, tried)
+    if exact is None:
+        assert found is None and tried == set()
+        return
+    assert found is not None and found.total == pytest.approx(exact.cost, abs=COST_TOL)
+    assert set(found.suppliers_used) <= free and found.fees_cost == 0.0
+    assert check_choice(problem, found.choice) == []
+    assert tried == {frozenset(free)}
+
+
 @settings(**SETTINGS)
 @given(problems(), st.data())
 def test_free_sellers_give_the_brute_force_optimum_over_the_design_s_and_the_fee_free_suppliers(problem: Problem, data) -> None:
