@@ -1222,7 +1222,12 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
     ``start``, a feasible solution of this problem (choice in its indices), is
     handed to the solver as its first incumbent, so the search prunes against
     it from the first node.
+
+    ``time_limit`` counts from this call: the solver gets what the model's
+    build left of it (a large model takes seconds to build), and none left
+    is a :class:`~partpick.errors.SolverTimeout` naming the whole limit.
     """
+    began = time.monotonic()
     m = Model("partpick", pulp.LpMinimize)
     x, classes = _choice_rows(m, problem)
     tie_terms = [(v, float(w)) for gname, vars_ in x.items() for v, w in zip(vars_, tie[gname]) if w]
@@ -1296,7 +1301,6 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
 
     if start is not None:
         _set_start(start, x, y, buy, extra, classes)
-    sol = _solver(solver, time_limit, warm=start is not None)
     # Lexicographic goals before cost: fewest changed roles, then fewest lines.
     goals = []
     final = cost + tie_expr
@@ -1319,17 +1323,28 @@ def solve_model(problem: Problem, tie: dict[str, np.ndarray], solver: str = "cbc
             for group_users in by_group.values():
                 m += pulp.LpAffineExpression([(u[line], 1.0)] + [(v, -1.0) for v in group_users.values()]) >= 0
         goals.append(("lines", pulp.lpSum(u.values())))
-    proven = True
     fees_first = list(y.values())
+    left = None if time_limit is None else time_limit - (time.monotonic() - began)
+    if left is not None and left <= 0:
+        raise SolverTimeout(time_limit)
+    sol = _solver(solver, left, warm=start is not None)
+
+    def run() -> None:
+        try:
+            _run(m, sol, solver, first=fees_first)
+        except SolverTimeout:
+            raise SolverTimeout(time_limit) from None
+
+    proven = True
     for name, goal in goals:
         m.setObjective(goal + 1e-6 * cost + tie_expr * 1e-3)
-        _run(m, sol, solver, first=fees_first)
+        run()
         if not _found(m, time_limit):
             return _infeasible(solver)
         proven = proven and m.sol_status == pulp.LpSolutionOptimal
         m += goal <= round(pulp.value(goal)), f"{name}_fixed"
     m.setObjective(final)
-    _run(m, sol, solver, first=fees_first)
+    run()
     if not _found(m, time_limit):
         return _infeasible(solver)
     proven = proven and m.sol_status == pulp.LpSolutionOptimal

@@ -169,3 +169,56 @@ def test_the_run_again_for_a_verdict_is_stopped_after_twice_the_first_run(tmp_pa
         milp._run(m, milp._solver("cbc", None), "cbc")
     assert time.monotonic() - began < 20.0  # the fake would wait 60 s
     assert milp._children_naming("partpick-solve-") == []
+
+
+def _slow_build(monkeypatch, seconds: float) -> None:
+    """Make solve_model's model build take ``seconds`` longer (its line needs are read first)."""
+    real = milp._line_units
+
+    def slow(*args, **kwargs):
+        time.sleep(seconds)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(milp, "_line_units", slow)
+
+
+def _two_lines() -> Problem:
+    """g chooses a (line A, 1.00) or b (line B, 2.00) from S1 without a fee: a, 1.00."""
+    g = Group("g", ["a", "b"], [[("A", 1.0, "r")], [("B", 1.0, "r")]])
+    return Problem({"g": g}, [], {"A": [Offer("S1", 1, 1.0, 10, 1)], "B": [Offer("S1", 1, 2.0, 10, 1)]}, {"S1": 0.0}, 1.0)
+
+
+def test_a_solve_s_time_limit_counts_its_model_build(monkeypatch) -> None:
+    """The solver gets what the build left of the limit; with none left the solve stops before the solver, naming the limit."""
+    p = _two_lines()
+    tie = milp.tie_weights(p)
+    given = []
+    real = milp._solver
+
+    def spy(name, time_limit, warm=False):
+        given.append(time_limit)
+        return real(name, time_limit, warm)
+
+    monkeypatch.setattr(milp, "_solver", spy)
+    _slow_build(monkeypatch, 0.3)
+    sol = milp.solve_model(p, tie, "cbc", 30.0)
+    assert sol.status == "optimal" and sol.total == pytest.approx(1.0)
+    assert 20.0 < given[0] <= 29.7
+    with pytest.raises(SolverTimeout) as info:
+        milp.solve_model(p, tie, "cbc", 0.2)
+    assert info.value.time_limit == 0.2
+    assert len(given) == 1  # no solver was started
+
+
+def test_a_solver_stopped_at_what_the_build_left_names_the_whole_limit(tmp_path, monkeypatch) -> None:
+    """A CBC program that overruns the share the build left is stopped; the timeout names the solve's own limit."""
+    monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, _waits())))
+    monkeypatch.setattr(milp, "OVERRUN_GRACE_S", 0.2)
+    _slow_build(monkeypatch, 0.2)
+    p = _two_lines()
+    began = time.monotonic()
+    with pytest.raises(SolverTimeout) as info:
+        milp.solve_model(p, milp.tie_weights(p), "cbc", 0.7)
+    assert time.monotonic() - began < 20.0  # the fake would wait 60 s
+    assert info.value.time_limit == 0.7
+    assert milp._children_naming("partpick-solve-") == []
