@@ -873,9 +873,14 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     if mode in ("resistor", "auto"):
         best_i = np.zeros(n)
         per_fam = []
+        # Families of one E-series and value range give the same R1 and power; only their rating tells them apart.
+        by_range: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
         for f in fams.itertuples(index=False):
-            r1 = np.asarray(eseries.next_down(np.where(np.isfinite(r1_max), r1_max, f.value_max), f.series, f.value_min, f.value_max), float)
-            p = swing.bias_resistor_power_w(rail_max, vd_min, base_pk, r1)
+            key = (f.series, f.value_min, f.value_max)
+            if key not in by_range:
+                r1 = np.asarray(eseries.next_down(np.where(np.isfinite(r1_max), r1_max, f.value_max), f.series, f.value_min, f.value_max), float)
+                by_range[key] = (r1, swing.bias_resistor_power_w(rail_max, vd_min, base_pk, r1))
+            r1, p = by_range[key]
             fits = np.isfinite(r1) & np.isfinite(r1_max) & (f.power_w >= RESISTOR_POWER_MARGIN * p)
             standing = np.where(fits, swing.bias_standing_current_a(rail_max, vd_min, r1), 0.0)
             best_i = np.maximum(best_i, standing)

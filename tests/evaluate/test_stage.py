@@ -252,35 +252,78 @@ def test_resistor_families_of_one_series_differ_only_by_their_power_rating(catal
     that fit that rating, with the same values; an E12 twin must get E12
     values only (IEC 60063 E12: 10 12 15 18 22 27 33 39 47 56 68 82).
     """
-    import dataclasses
-
     import pandas as pd
 
     from partpick.model.defaults import RESISTOR_POWER_MARGIN
 
     spec, pool, targets, st = bench
-    original = pool.passives[pool.passives["family"] == "AR-MO24-1W"].iloc[0]
     opts = st.feed_options[(st.feed_options["family"] == "AR-MO24-1W") & (st.feed_options["kind"] == "ccs_resistors")]
     need = RESISTOR_POWER_MARGIN * np.maximum(opts["p1_w"], opts["p2_w"])
     rating = float(np.median(need))
+    # The E12 twin at 100 W may serve configurations the 1 W families cannot.
+    st2 = evaluate_stage(spec, _twins(pool, "AR-MO24-1W", rating), targets)
+    got, want = _twin_options(st, st2, opts, need <= rating, ["k", "v1", "v2", "p1_w", "p2_w"])
+    pd.testing.assert_frame_equal(got, want, check_dtype=False)
+    twin_rows = st2.feed_options[(st2.feed_options["family"] == "TWIN-E12") & (st2.feed_options["kind"] == "ccs_resistors")]
+    _assert_e12(twin_rows[["v1", "v2"]].to_numpy().ravel())
+
+
+def test_bias_resistor_families_of_one_series_differ_only_by_their_power_rating(catalog):
+    """The resistor feed's R1 options of families that share an E-series and value range (computed once per range).
+
+    Each family is filtered by its own rating (model s.3: R1 within rating /
+    RESISTOR_POWER_MARGIN). On the bench example at 10 W, a twin of the
+    family with the most R1 options, rated at the median of the power they need,
+    gets exactly those of its options that fit that rating, with the same
+    values; an E12 twin gets E12 values only.
+    """
+    import pandas as pd
+
+    from partpick.model.defaults import RESISTOR_POWER_MARGIN
+
+    text = BENCH.read_text(encoding="utf-8").replace('bias_feed = "auto"', 'bias_feed = "resistor"')
+    spec = parse_spec(text.replace("power_w = 25.0", "power_w = 10.0"))  # at 25 W no R1 serves the demo's pairs
+    assert spec.stage.bias_feed == "resistor" and spec.output.power_w == 10.0
+    pool = make_pool(spec, catalog)
+    targets = Targets.from_spec(spec)
+    st = evaluate_stage(spec, pool, targets)
+    r1 = st.feed_options[st.feed_options["kind"] == "bias_resistor"]
+    name = r1["family"].value_counts().index[0]
+    opts = r1[r1["family"] == name]
+    need = RESISTOR_POWER_MARGIN * opts["p1_w"]
+    rating = float(np.median(need))
+    st2 = evaluate_stage(spec, _twins(pool, name, rating), targets)
+    got, want = _twin_options(st, st2, opts, need <= rating, ["k", "v1", "p1_w"])
+    pd.testing.assert_frame_equal(got, want, check_dtype=False)
+    _assert_e12(st2.feed_options.loc[st2.feed_options["family"] == "TWIN-E12", "v1"].to_numpy())
+
+
+def _twins(pool, name: str, rating: float):
+    """``pool`` with two twins of resistor family ``name``: TWIN-LOW rated ``rating`` W, TWIN-E12 of series E12 at 100 W."""
+    import dataclasses
+
+    import pandas as pd
+
+    original = pool.passives[pool.passives["family"] == name].iloc[0]
     twin = original.copy()
     twin["family"], twin["power_w"] = "TWIN-LOW", rating
     e12 = original.copy()
     e12["family"], e12["series"], e12["power_w"] = "TWIN-E12", "E12", 100.0
-    passives = pd.concat([pool.passives, pd.DataFrame([twin, e12])], ignore_index=True)
-    st2 = evaluate_stage(spec, dataclasses.replace(pool, passives=passives), targets)
-    # The E12 twin at 100 W may serve configurations the 1 W families cannot;
-    # every original configuration stays, with the same key.
-    assert set(st.configs["key"]) <= set(st2.configs["key"])
+    return dataclasses.replace(pool, passives=pd.concat([pool.passives, pd.DataFrame([twin, e12])], ignore_index=True))
+
+
+def _twin_options(st, st2, opts, keep, columns: list[str]) -> tuple:
+    """(TWIN-LOW's options in ``st2``, ``opts[keep]`` renumbered to ``st2``'s configurations), both sorted, on ``columns``."""
+    assert set(st.configs["key"]) <= set(st2.configs["key"])  # every original configuration stays, with the same key
     k_of = dict(zip(st2.configs["key"], range(len(st2.configs))))
     low = st2.feed_options[st2.feed_options["family"] == "TWIN-LOW"]
-    expected = opts[need <= rating].assign(k=lambda f: [k_of[key] for key in st.configs["key"].to_numpy()[f["k"].to_numpy()]])
+    expected = opts[keep].assign(k=lambda f: [k_of[key] for key in st.configs["key"].to_numpy()[f["k"].to_numpy()]])
     assert 0 < len(low) < len(opts)
-    got = low.sort_values("k")[["k", "v1", "v2", "p1_w", "p2_w"]].reset_index(drop=True)
-    want = expected.sort_values("k")[["k", "v1", "v2", "p1_w", "p2_w"]].reset_index(drop=True)
-    pd.testing.assert_frame_equal(got, want, check_dtype=False)
-    twin_rows = st2.feed_options[(st2.feed_options["family"] == "TWIN-E12") & (st2.feed_options["kind"] == "ccs_resistors")]
-    e12_values = twin_rows[["v1", "v2"]].to_numpy().ravel()
-    assert len(e12_values) > 0 and np.isfinite(e12_values).all()
-    mantissa = np.round(e12_values / 10 ** np.floor(np.log10(e12_values)) * 10).astype(int)
+    return (low.sort_values("k")[columns].reset_index(drop=True), expected.sort_values("k")[columns].reset_index(drop=True))
+
+
+def _assert_e12(values: np.ndarray) -> None:
+    """Every value is an E12 value (IEC 60063 E12: 10 12 15 18 22 27 33 39 47 56 68 82)."""
+    assert len(values) > 0 and np.isfinite(values).all()
+    mantissa = np.round(values / 10 ** np.floor(np.log10(values)) * 10).astype(int)
     assert set(mantissa) <= {10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82}
