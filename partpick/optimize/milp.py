@@ -90,7 +90,7 @@ FIRST_DESIGN_TRY_S = 5.0
 #: (on medium seed 3 the try took 0.37 s and found nothing cheaper). The
 #: same cap holds :func:`_fee_free_start`, the whole problem with the
 #: fee-free suppliers alone, solved before the loop (on the large
-#: benchmark's first table: 80.13 EUR, proven over those suppliers, in 2.9 s).
+#: benchmark's first table: 80.13 EUR, proven over those suppliers, in 2.0 to 2.2 s).
 FREE_SELLERS_TRY_S = 15.0
 
 
