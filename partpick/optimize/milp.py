@@ -668,16 +668,13 @@ def _fee_free_start(problem: Problem, solver: str, start: Solution | None, left:
     """
     from partpick.optimize.prune import FEE_SUBSETS_MAX_SUPPLIERS
 
-    free = frozenset(s for s, fee in problem.fees.items() if fee <= 0.0)
+    free = _fee_free(problem)
     options = sum(len(g) for g in problem.groups.values())
     if (not free or len(free) == len(problem.fees) or len(problem.fees) <= FEE_SUBSETS_MAX_SUPPLIERS
             or options < FIRST_DESIGN_MIN_OPTIONS):
         return start
-    narrow = replace(problem, line_offers={line: [o for o in offers if o.supplier in free] for line, offers in problem.line_offers.items()},
-                     fees={s: problem.fees[s] for s in free})
-    cap = FREE_SELLERS_TRY_S if left is None else min(FREE_SELLERS_TRY_S, 0.25 * left)
     try:
-        found = solve(narrow, solver, cap)
+        found = solve(_sold_by(problem, free), solver, _capped(FREE_SELLERS_TRY_S, left))
     except SolverTimeout:
         return start
     if found.status == "infeasible":
@@ -911,7 +908,7 @@ def _first_design(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, 
 
     sub = restrict(problem, keep)
     sub_tie = {g: tie[g][keep[g]] for g in tie}
-    cap = FIRST_DESIGN_TRY_S if left is None else min(FIRST_DESIGN_TRY_S, 0.25 * left)
+    cap = _capped(FIRST_DESIGN_TRY_S, left)
     best = None
     for i in np.argsort(sets.floor, kind="stable")[:FIRST_DESIGN_SETS].tolist():
         if not math.isfinite(sets.floor[i]):
@@ -944,14 +941,13 @@ def _free_sellers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, 
     """
     from partpick.optimize.prune import restrict
 
-    free = {s for s, fee in problem.fees.items() if fee <= 0.0}
+    free = _fee_free(problem)
     allowed = frozenset(best.suppliers_used) | free
     if free <= set(best.suppliers_used) or allowed in tried:
         return None
     tried.add(allowed)
-    cap = FREE_SELLERS_TRY_S if left is None else min(FREE_SELLERS_TRY_S, 0.25 * left)
-    found = _with_suppliers(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, allowed, cap,
-                            start=_within(best, keep))
+    found = _with_suppliers(restrict(problem, keep), {g: tie[g][keep[g]] for g in tie}, solver, allowed,
+                            _capped(FREE_SELLERS_TRY_S, left), start=_within(best, keep))
     if found is None:
         return None
     found = _lift(found, keep)
@@ -975,9 +971,8 @@ def _with_suppliers(problem: Problem, tie: dict[str, np.ndarray], solver: str, a
     """
     from partpick.optimize.prune import restrict
 
-    offers = {line: [o for o in offers if o.supplier in allowed] for line, offers in problem.line_offers.items()}
-    narrow = replace(problem, line_offers=offers, fees={s: f for s, f in problem.fees.items() if s in allowed})
-    sells = {line: bool(usable(offs)) for line, offs in offers.items()}
+    narrow = _sold_by(problem, allowed)
+    sells = {line: bool(usable(offs)) for line, offs in narrow.line_offers.items()}
     keep = {g: np.array([o for o, use in enumerate(grp.usage) if all(sells.get(line, False) for line, _q, _r in use)], dtype=np.int64)
             for g, grp in problem.groups.items()}
     if not all(len(k) for k in keep.values()) or any(f not in set(keep[g].tolist()) for g, f in problem.forced.items()):
@@ -988,6 +983,22 @@ def _with_suppliers(problem: Problem, tie: dict[str, np.ndarray], solver: str, a
     except SolverTimeout:
         return None
     return None if found.status == "infeasible" else _lift(found, keep)
+
+
+def _sold_by(problem: Problem, allowed) -> Problem:
+    """The problem with the offers and fees of the ``allowed`` suppliers alone."""
+    return replace(problem, line_offers={line: [o for o in offers if o.supplier in allowed] for line, offers in problem.line_offers.items()},
+                   fees={s: f for s, f in problem.fees.items() if s in allowed})
+
+
+def _fee_free(problem: Problem) -> frozenset[str]:
+    """The suppliers that charge no order fee."""
+    return frozenset(s for s, fee in problem.fees.items() if fee <= 0.0)
+
+
+def _capped(most: float, left: float | None) -> float:
+    """A try's time: ``most`` seconds, and a quarter of ``left`` at most under a time limit."""
+    return most if left is None else min(most, 0.25 * left)
 
 
 def _drop_suppliers(problem: Problem, keep: dict[str, np.ndarray], tie: dict[str, np.ndarray], solver: str,
