@@ -180,16 +180,23 @@ class Solution:
 _clock = time.monotonic  # the loop's deadline clock (a test replaces it)
 
 
-def _solver(name: str, time_limit: float | None, warm: bool = False):
+def _solver(name: str, time_limit: float | None, warm: bool = False, heuristics: bool = False):
+    """The PuLP solver object for one run; ``heuristics``: keep CBC's primal heuristics on (the first-design question)."""
     if name == "cbc":
         # CBC 2.10's preprocessing returned a dearer design as optimal on some
         # small problems with shared lines (found by the pruning tests against
         # brute force), and it took most of CBC's time on small models.
-        # With a start design, its primal heuristics only look for a better one,
-        # which the search finds anyway: off, the warm threshold solves of the
-        # medium benchmark took 5.1 and 6.0 s instead of 7.8 and 8.4 s (seeds 0, 3).
+        # Its primal heuristics are off for the cost solves. With a start design
+        # they only look for a better one, which the search finds anyway: the
+        # warm threshold solves of the medium benchmark took 5.1 and 6.0 s
+        # instead of 7.8 and 8.4 s (seeds 0, 3). Without one the root's cuts
+        # and the branching on the supplier binaries first find the optimum
+        # sooner than the feasibility pump finds a design: the first threshold
+        # solves of medium seeds 1, 2 and 4 took 0.59, 0.45 and 0.26 s instead
+        # of 2.38, 0.72 and 1.02 s (seed 0: 0.58 against 0.60 s). They stay on
+        # for _any_design_model, which asks for any design and nothing else.
         return pulp.PULP_CBC_CMD(msg=False, timeLimit=time_limit, warmStart=warm,
-                                 options=["randomSeed 1", "randomCbcSeed 1", "preprocess off"] + (["heur off"] if warm else []))
+                                 options=["randomSeed 1", "randomCbcSeed 1", "preprocess off"] + ([] if heuristics else ["heur off"]))
     if name == "highs":
         try:
             import highspy  # noqa: F401
@@ -524,7 +531,7 @@ def _any_design_model(problem: Problem, solver: str, time_limit: float | None) -
                 v.upBound = 0
         m += pulp.LpAffineExpression(need[line]) <= capacity, f"capacity_{l_i}"
     m.setObjective(pulp.LpAffineExpression())
-    _run(m, _solver(solver, time_limit), solver)
+    _run(m, _solver(solver, time_limit, heuristics=True), solver)
     return _found(m, time_limit)
 
 

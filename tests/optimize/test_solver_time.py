@@ -210,6 +210,26 @@ def test_a_solve_s_time_limit_counts_its_model_build(monkeypatch) -> None:
     assert len(given) == 1  # no solver was started
 
 
+def test_cbc_s_heuristics_run_only_where_any_design_is_asked_for(monkeypatch) -> None:
+    """CBC's primal heuristics are off for the cost solves, with a start design and without one (the
+    measurements are in _solver's comment), and on for the question whether any design exists."""
+    p = _two_lines()
+    tie = milp.tie_weights(p)
+    runs = []
+    real = milp._run
+
+    def spy(m, sol, name, first=None):
+        runs.append((m.name, "heur off" in sol.options))
+        return real(m, sol, name, first)
+
+    monkeypatch.setattr(milp, "_run", spy)
+    cold = milp.solve_model(p, tie, "cbc")
+    warm = milp.solve_model(p, tie, "cbc", start=cold)
+    assert cold.total == pytest.approx(1.0) and warm.total == pytest.approx(1.0)
+    assert milp._any_design_model(p, "cbc", None)
+    assert runs == [("partpick", True), ("partpick", True), ("partpick_any", False)]
+
+
 def test_a_solver_stopped_at_what_the_build_left_names_the_whole_limit(tmp_path, monkeypatch) -> None:
     """A CBC program that overruns the share the build left is stopped; the timeout names the solve's own limit."""
     monkeypatch.setattr(pulp.PULP_CBC_CMD, "pulp_cbc_path", str(fake_cbc(tmp_path, _waits())))
