@@ -968,7 +968,17 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     low = _LowHeat.of(spec, core, sink, core_cols) if bound is not None and bound.refined else None
     family = fams["family"].to_numpy(object)
     power_w = fams["power_w"].to_numpy(float)
-    series_groups = [(key, list(members)) for key, members in fams.groupby(["series", "value_min", "value_max"], sort=False, dropna=False).indices.items()]
+    # Families of one E-series and value range give the same resistor values
+    # and currents; only their power rating tells them apart. Everything per
+    # feed variant below is computed once per such group, on the rows that
+    # can be built at all (``ix``).
+    groups = fams.groupby(["series", "value_min", "value_max"], sort=False, dropna=False).indices
+    series_keys = list(groups)
+    series_members = [np.asarray(m, dtype=np.int64) for m in groups.values()]
+    group_of = np.empty(len(fams), dtype=np.int64)
+    for g, members in enumerate(series_members):
+        group_of[members] = g
+    strongest = np.array([power_w[m].max() for m in series_members]) if series_members else np.zeros(0)
     for s in small.itertuples(index=False):
         dev = _ccs_device(s, spec, rail_max)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
@@ -989,40 +999,34 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                 room = np.logical_or.reduce([mount_room[m] for m in mounts])
             if not room.any():
                 continue
-            # Families of one E-series and value range give the same resistor
-            # values and currents; only their power rating tells them apart.
-            # Everything below runs on the rows that can be built at all (``ix``).
             ix = np.flatnonzero(room & compliance & vceo_ok)
-            if not len(ix):
+            if not len(ix) or not series_keys:
                 continue
             dev_ix = {**dev, "soa_2vs_a": dev["soa_2vs_a"][ix]}
             r_min, r_max, need = rail_min[ix], rail_max[ix], i_need[ix]
-            per_fam: list = [None] * len(fams)
-            for (series, v_min, v_max), members in series_groups:
-                r_e = np.asarray(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe_req[ix], i_req[ix]), series, v_min, v_max), float)
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    i_lo, i_act = dev["current"](vref, r_e)
-                    i_ref = swing.ccs_reference_current_a(i_act, dev["hfe"](i_act))
-                    r_ref = np.asarray(eseries.next_down(swing.ccs_reference_resistor_ohm(r_min, vref, i_ref), series, v_min, v_max), float)
-                    i_ref_max = (r_max - vref) / r_ref
-                    p_e = i_act**2 * r_e
-                    p_ref = (r_max - vref) ** 2 / r_ref
-                built = (
-                    np.isfinite(r_e) & np.isfinite(r_ref) & (i_lo >= need)
-                    & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
-                )
-                p_most = np.maximum(p_e, p_ref)
-                free_air_ok = _ccs_thermal_ok(dev_ix, "free_air", r_max, i_act, amb) if "free_air" in mounts else None
-                for m in members:
-                    fits = built & (power_w[m] >= RESISTOR_POWER_MARGIN * p_most)
-                    per_fam[m] = (family[m], r_e, r_ref, p_e, p_ref, i_act, fits, free_air_ok)
+            # One row per (E-series, value range) group, one column per row of ix.
+            r_e_wanted = swing.ccs_emitter_resistor_ohm(vref, vbe_req[ix], i_req[ix])
+            r_e = np.stack([np.asarray(eseries.next_down(r_e_wanted, *key), float) for key in series_keys])
+            with np.errstate(divide="ignore", invalid="ignore"):
+                i_lo, i_act = dev["current"](vref, r_e)
+                i_ref = swing.ccs_reference_current_a(i_act, dev["hfe"](i_act))
+                r_ref_wanted = swing.ccs_reference_resistor_ohm(r_min, vref, i_ref)
+                r_ref = np.stack([np.asarray(eseries.next_down(r_ref_wanted[g], *key), float) for g, key in enumerate(series_keys)])
+                i_ref_max = (r_max - vref) / r_ref
+                p_e = i_act**2 * r_e
+                p_ref = (r_max - vref) ** 2 / r_ref
+            built = (
+                np.isfinite(r_e) & np.isfinite(r_ref) & (i_lo >= need)
+                & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
+            )
+            p_most = np.maximum(p_e, p_ref)
+            free_air_ok = _ccs_thermal_ok(dev_ix, "free_air", r_max, i_act, amb) if "free_air" in mounts else None
             for mount in mounts:
                 # In free air each source's junction and SOA must hold; on the sink they join the sink limits.
-                here = mount_room[mount][ix]
-                fam_fits = [fits & here & (thermal if mount == "free_air" else True) for *_r, fits, thermal in per_fam]
-                best = np.zeros(len(ix))
-                for (*_r, i_act, _f, _t), ok in zip(per_fam, fam_fits):
-                    best = np.maximum(best, np.where(ok, i_act, 0.0))
+                here = mount_room[mount][ix] & (free_air_ok if mount == "free_air" else True)
+                # A group's families differ only by rating: some family of it fits where its strongest one does.
+                usable = built & here
+                best = np.max(np.where(usable & (RESISTOR_POWER_MARGIN * p_most <= strongest[:, None]), i_act, 0.0), axis=0, initial=0.0)
                 limits = None
                 if mount == "heatsink":
                     # Only rows a source can feed need the sink limits; the others stay unserved.
@@ -1043,17 +1047,25 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                     standing_a=best[kept], ccs_mount=mount, ccs_package=s.package if mount == "heatsink" else "",
                     sink_devices=sink.n_dev + (2 * sink.channels if mount == "heatsink" else 0),
                 ))
-                chosen = [(f, np.flatnonzero(ok & (best > 0))) for f, ok in zip(per_fam, fam_fits)]
+                # (family, row of ix) of every resistor option, by family and then row, as the families are listed.
+                fam_at, row_at = [], []
+                for g, members in enumerate(series_members):
+                    ok = (usable[g] & (best > 0))[None, :] & (power_w[members][:, None] >= RESISTOR_POWER_MARGIN * p_most[g][None, :])
+                    m_i, r_i = np.nonzero(ok)
+                    fam_at.append(members[m_i])
+                    row_at.append(r_i)
+                fam_at, row_at = np.concatenate(fam_at), np.concatenate(row_at)
+                order = np.argsort(fam_at, kind="stable")
+                fam_at, row_at = fam_at[order], row_at[order]
+                grp_at = group_of[fam_at]
 
-                def options(chosen=chosen, pos=pos) -> pd.DataFrame:
-                    cat = lambda j: np.concatenate([f[j][ks] for f, ks in chosen])  # noqa: E731
-                    ks_all = np.concatenate([ks for _f, ks in chosen])
+                def options(fam_at=fam_at, row_at=row_at, grp_at=grp_at, pos=pos, r_e=r_e, r_ref=r_ref, p_e=p_e, p_ref=p_ref) -> pd.DataFrame:
                     return pd.DataFrame(dict(
-                        row=pos[ks_all], family=np.repeat(np.array([f[0] for f, _ks in chosen], dtype=object), [len(ks) for _f, ks in chosen]),
-                        kind="ccs_resistors", v1=cat(1), v2=cat(2), p1_w=cat(3), p2_w=cat(4),
+                        row=pos[row_at], family=family[fam_at], kind="ccs_resistors",
+                        v1=r_e[grp_at, row_at], v2=r_ref[grp_at, row_at], p1_w=p_e[grp_at, row_at], p2_w=p_ref[grp_at, row_at],
                     ))
 
-                yield idx, frame, sum(len(ks) for _f, ks in chosen), options, (None if limits is None else limits[kept])
+                yield idx, frame, len(fam_at), options, (None if limits is None else limits[kept])
 
 
 @dataclass

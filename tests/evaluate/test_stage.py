@@ -268,6 +268,35 @@ def test_resistor_families_of_one_series_differ_only_by_their_power_rating(catal
     _assert_e12(twin_rows[["v1", "v2"]].to_numpy().ravel())
 
 
+def test_every_family_of_a_series_and_range_gets_the_current_source_options_its_rating_allows(bench):
+    """At each current-source configuration, the resistor families of one E-series and value range either offer
+    the same R_E and R_ref (and their powers) or none, and a family offers them exactly when its rating holds both
+    resistors' power with RESISTOR_POWER_MARGIN (model s.3 (a')), whatever the other families of the range.
+    The demo's ratings all hold what its sources need, so a twin of AR-MO24-1W rated at the median need joins
+    that range (and an E12 twin at 100 W one of its own)."""
+    from partpick.model.defaults import RESISTOR_POWER_MARGIN
+
+    spec, pool, targets, st = bench
+    first = st.feed_options[st.feed_options["kind"] == "ccs_resistors"]
+    pool = _twins(pool, "AR-MO24-1W", float(np.median(RESISTOR_POWER_MARGIN * np.maximum(first["p1_w"], first["p2_w"]))))
+    st = evaluate_stage(spec, pool, targets)
+    fams = pool.passives[pool.passives["kind"] == "resistor"].set_index("family")
+    opts = st.feed_options[st.feed_options["kind"] == "ccs_resistors"]
+    rng = fams[["series", "value_min", "value_max"]].astype(str).agg("/".join, axis=1)
+    opts = opts.assign(range=rng.loc[opts["family"]].to_numpy())
+    assert opts["range"].nunique() > 1 and (rng.value_counts() > 1).any()  # several ranges, some shared by families
+    present = set(zip(opts["k"], opts["family"]))
+    checked = 0
+    for (k, where), here in opts.groupby(["k", "range"]):
+        values = here[["v1", "v2", "p1_w", "p2_w"]].drop_duplicates()
+        assert len(values) == 1, (k, where)
+        need = RESISTOR_POWER_MARGIN * max(float(values["p1_w"].iloc[0]), float(values["p2_w"].iloc[0]))
+        for family in rng.index[rng == where]:
+            assert ((k, family) in present) == bool(fams.loc[family, "power_w"] >= need), (k, family)
+            checked += 1
+    assert checked > len(opts)  # some families were rightly left out
+
+
 def test_bias_resistor_families_of_one_series_differ_only_by_their_power_rating(catalog):
     """The resistor feed's R1 options of families that share an E-series and value range (computed once per range).
 
