@@ -978,7 +978,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     group_of = np.empty(len(fams), dtype=np.int64)
     for g, members in enumerate(series_members):
         group_of[members] = g
-    strongest = np.array([power_w[m].max() for m in series_members]) if series_members else np.zeros(0)
+    strongest = np.array([power_w[m].max() for m in series_members])
     for s in small.itertuples(index=False):
         dev = _ccs_device(s, spec, rail_max)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
@@ -1048,9 +1048,10 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                     sink_devices=sink.n_dev + (2 * sink.channels if mount == "heatsink" else 0),
                 ))
                 # (family, row of ix) of every resistor option, by family and then row, as the families are listed.
+                fed = usable & (best > 0)
                 fam_at, row_at = [], []
                 for g, members in enumerate(series_members):
-                    ok = (usable[g] & (best > 0))[None, :] & (power_w[members][:, None] >= RESISTOR_POWER_MARGIN * p_most[g][None, :])
+                    ok = fed[g][None, :] & (power_w[members][:, None] >= RESISTOR_POWER_MARGIN * p_most[g][None, :])
                     m_i, r_i = np.nonzero(ok)
                     fam_at.append(members[m_i])
                     row_at.append(r_i)
