@@ -196,11 +196,10 @@ class SinkCosts:
         if source_package == -2 or not len(self.rth):
             return out
         for code, rows in self._rows_by_code(package):
-            at_rows = limits[rows]
             best = np.full(len(rows), np.inf)
             for c, rth, running in self._ladder(source_package, devices, code):
                 # running[0] is inf: a limit below every Rth_sa of the class finds none.
-                np.minimum(best, running[np.searchsorted(rth, at_rows[:, c], side="right")], out=best)
+                np.minimum(best, running[np.searchsorted(rth, limits[rows, c], side="right")], out=best)
             out[rows] = best
         return out
 
@@ -365,11 +364,12 @@ class FeedBound:
         heat (see the class); computed once per pair for every threshold.
         """
         key = (int(s.npn_i), int(s.pnp_i))
-        if key not in self.sink_memo:
-            self.sink_memo[key] = self.sinks.with_sources(limits(), s.package).astype(np.float32)
-        # float32 rounds; its next value down keeps the bound at or below the float64 one (inf stays inf).
-        kept = self.sink_memo[key]
-        return np.where(np.isinf(kept), np.inf, np.nextafter(kept, np.float32(-np.inf)).astype(float))
+        kept = self.sink_memo.get(key)
+        if kept is None:
+            least = self.sinks.with_sources(limits(), s.package).astype(np.float32)
+            # float32 rounds; its next value down keeps the bound at or below the float64 one (inf stays inf).
+            kept = self.sink_memo[key] = np.where(np.isinf(least), np.float32(np.inf), np.nextafter(least, np.float32(-np.inf)))
+        return kept.astype(float)
 
     @property
     def refined(self) -> bool:
@@ -859,8 +859,8 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     """
     fams = pool.passives[pool.passives["kind"] == "resistor"].reset_index(drop=True)
     mode = spec.stage.bias_feed
-    rows: list[pd.DataFrame] = []
-    options: list[pd.DataFrame] = []
+    rows = _Pieces(["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"])
+    options = _Pieces(["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"])
     rth: list[np.ndarray] = []
     n = len(core)
     n_cls = len(sink.classes)
@@ -889,12 +889,12 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
         idx = np.flatnonzero(served)
         pos = -np.ones(n, dtype=int)
         pos[idx] = offset + np.arange(len(idx))
-        rows.append(pd.DataFrame(dict(core_i=idx, feed="resistor", ccs_n_i=-1, ccs_p_i=-1, ref_i=-1, ref_per_source=0,
-                                      standing_a=best_i[idx], ccs_mount="", ccs_package="", sink_devices=sink.n_dev)))
+        rows.add(len(idx), core_i=idx, feed="resistor", ccs_n_i=-1, ccs_p_i=-1, ref_i=-1, ref_per_source=0,
+                 standing_a=best_i[idx], ccs_mount="", ccs_package="", sink_devices=sink.n_dev)
         rth.append(np.full((len(idx), n_cls), np.nan))
         for f, r1, p, fits in per_fam:
             ks = np.flatnonzero(fits)
-            options.append(pd.DataFrame(dict(k=pos[ks], family=f.family, kind="bias_resistor", v1=r1[ks], v2=np.nan, p1_w=p[ks], p2_w=np.nan)))
+            options.add(len(ks), k=pos[ks], family=f.family, kind="bias_resistor", v1=r1[ks], v2=np.nan, p1_w=p[ks], p2_w=np.nan)
         offset += len(idx)
         res_ok = served
     else:
@@ -903,27 +903,24 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     skipped = np.zeros(n, dtype=bool)  # some current-source feed left out by the bound
     cut = np.zeros(n, dtype=bool)  # ... at a finite bound: a higher threshold would build it
     if mode in ("current_source", "auto"):
-        n_opts = sum(len(o) for o in options)
+        n_opts = options.length
         for idx, frame, n_new, make_options, limits in _ccs_variants(spec, pool, targets, core, fams, sink, bound, skipped, cut):
             n_opts += n_new
             if offset + len(idx) > STAGE_ROWS_MAX or n_opts > FEED_OPTIONS_MAX:
                 raise SizeLimitError(_too_many_feeds(mode, n, pool))
             opts = make_options()
-            frame["core_i"] = idx
-            pos = offset + np.arange(len(idx))
-            opts["k"] = pos[opts["row"].to_numpy()]
-            rows.append(frame)
-            options.append(opts.drop(columns="row"))
+            k = offset + opts.pop("row")
+            options.add(len(k), **opts, k=k)
+            rows.add(len(idx), **frame, core_i=idx)
             rth.append(np.full((len(idx), n_cls), np.nan) if limits is None else limits)
             offset += len(idx)
             ccs_ok[idx] = True
-    columns = ["core_i", "feed", "ccs_n_i", "ccs_p_i", "ref_i", "ref_per_source", "standing_a", "ccs_mount", "ccs_package", "sink_devices"]
     served = res_ok | ccs_ok
     above = skipped & ~served
     unserved = np.flatnonzero(~served & ~above)
     return _Feeds(
-        rows=pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=columns),
-        options=pd.concat(options, ignore_index=True) if options else pd.DataFrame(columns=["k", "family", "kind", "v1", "v2", "p1_w", "p2_w"]),
+        rows=rows.frame(),
+        options=options.frame(),
         rth=np.concatenate(rth) if rth else np.zeros((0, n_cls)),
         unserved=unserved,
         unserved_r1_max=r1_max[unserved] if mode != "current_source" else np.full(len(unserved), np.nan),
@@ -932,11 +929,48 @@ def _feeds(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, vd_min:
     )
 
 
+class _Pieces:
+    """A table's columns gathered piece by piece, made into one frame at the end.
+
+    One frame of every piece's arrays instead of a frame per piece and a
+    concatenation: a large catalogue's current-source feeds come in hundreds
+    of pieces. A piece's scalar stands for a column of that one value. The
+    frame's columns are in the order the first piece names them (``columns``
+    when there is none), as a concatenation of the pieces' frames would have
+    them.
+    """
+
+    def __init__(self, columns: list[str]) -> None:
+        self.columns = columns
+        self.parts: dict[str, list[np.ndarray]] = {c: [] for c in columns}
+        self.length = 0
+
+    def add(self, n: int, **values) -> None:
+        if not self.length and not self.parts[self.columns[0]]:
+            assert set(values) == set(self.columns), sorted(values)
+            self.columns = list(values)
+        for c in self.columns:
+            v = values[c]
+            self.parts[c].append(v if isinstance(v, np.ndarray) else np.full(n, v, dtype=object if isinstance(v, str) else None))
+        self.length += n
+
+    def frame(self) -> pd.DataFrame:
+        if not self.parts[self.columns[0]]:
+            return pd.DataFrame(columns=self.columns)
+        cols = {c: np.concatenate(self.parts[c]) for c in self.columns}
+        frame = pd.DataFrame(cols)
+        # A text column of no rows: text all the same, as a piece's frame makes of its scalar.
+        empty_text = {c: "str" for c, a in cols.items() if a.dtype == object and not len(a)}
+        return frame.astype(empty_text) if empty_text else frame
+
+
 def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, fams: pd.DataFrame, sink: _Sink,
                   bound: FeedBound | ChangeBound | None = None, skipped: np.ndarray | None = None, cut: np.ndarray | None = None):
     """Current-source feeds (model s.3 (a')): small complementary pair x reference x mounting.
 
-    Yields ``(core rows served, variant frame, resistor options, sink limits)``.
+    Yields ``(core rows served, variant columns, resistor option count, resistor
+    options, sink limits)``: the columns a dict for :class:`_Pieces`, the options a
+    callable giving theirs, ``row`` indexing the rows served.
     A source transistor sits either in free air (its junction from Rth_ja) or,
     when its package has an insulated mounting, on the channel's heatsink:
     then the pair of sources adds :func:`~partpick.model.swing.ccs_pair_sink_heat_w`
@@ -979,15 +1013,17 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
     for g, members in enumerate(series_members):
         group_of[members] = g
     strongest = np.array([power_w[m].max() for m in series_members])
+    points = _worst_points(rail_max)
+    keys = _FeedKeys.of_rows(i_req, i_need, rail_min, rail_max)
     for s in small.itertuples(index=False):
-        dev = _ccs_device(s, spec, rail_max)
+        dev = _ccs_device(s, spec, rail_max, points)
         vceo_ok = soa.vceo_margin_v(dev["vceo_v"], span) >= 0
         mounts = _source_mounts(s.package)
-        vbe_req = dev["vbe"](i_req)
+        vbe_key = dev["vbe"](keys.i_req)
         low_sink = (bound.sink_cost(s, lambda dev=dev: low.limits(spec, sink, dev))
                     if low is not None and "heatsink" in mounts else None)
         for d_i, per, vref, if_max in refs:
-            room = vref - vbe_req >= CCS_MIN_RE_DROP_V
+            room = (vref - vbe_key >= CCS_MIN_RE_DROP_V)[keys.row_key]
             mount_room = {mount: room for mount in mounts}
             if bound is not None:
                 for mount in mounts:
@@ -1002,10 +1038,13 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
             ix = np.flatnonzero(room & compliance & vceo_ok)
             if not len(ix) or not series_keys:
                 continue
-            dev_ix = {**dev, "soa_2vs_a": dev["soa_2vs_a"][ix]}
-            r_min, r_max, need = rail_min[ix], rail_max[ix], i_need[ix]
-            # One row per (E-series, value range) group, one column per row of ix.
-            r_e_wanted = swing.ccs_emitter_resistor_ohm(vref, vbe_req[ix], i_req[ix])
+            # The figures below depend on a row only through its key: one
+            # column per key present in ix (``at`` maps ix's rows to them).
+            present, at = keys.present(ix)
+            dev_ix = keys.device(dev, present)
+            r_min, r_max, need = keys.rail_min[present], keys.rail_max[present], keys.i_need[present]
+            # One row per (E-series, value range) group, one column per key.
+            r_e_wanted = swing.ccs_emitter_resistor_ohm(vref, vbe_key[present], keys.i_req[present])
             r_e = np.stack([np.asarray(eseries.next_down(r_e_wanted, *key), float) for key in series_keys])
             with np.errstate(divide="ignore", invalid="ignore"):
                 i_lo, i_act = dev["current"](vref, r_e)
@@ -1020,13 +1059,15 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                 & (i_act <= dev["ic_max_a"]) & (i_ref_max <= if_max)
             )
             p_most = np.maximum(p_e, p_ref)
+            # A group's families differ only by rating: some family of it fits where its strongest one does.
+            fits = built & (RESISTOR_POWER_MARGIN * p_most <= strongest[:, None])
             free_air_ok = _ccs_thermal_ok(dev_ix, "free_air", r_max, i_act, amb) if "free_air" in mounts else None
             for mount in mounts:
                 # In free air each source's junction and SOA must hold; on the sink they join the sink limits.
-                here = mount_room[mount][ix] & (free_air_ok if mount == "free_air" else True)
-                # A group's families differ only by rating: some family of it fits where its strongest one does.
-                usable = built & here
-                best = np.max(np.where(usable & (RESISTOR_POWER_MARGIN * p_most <= strongest[:, None]), i_act, 0.0), axis=0, initial=0.0)
+                sound = free_air_ok if mount == "free_air" else True
+                # The largest current a fitting group gives each key, then each row of ix it may feed.
+                most = np.max(np.where(fits & sound, i_act, 0.0), axis=0, initial=0.0)
+                best = np.where(mount_room[mount][ix], most[at], 0.0)
                 limits = None
                 if mount == "heatsink":
                     # Only rows a source can feed need the sink limits; the others stay unserved.
@@ -1042,31 +1083,73 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
                 idx = ix[kept]
                 pos = -np.ones(len(ix), dtype=int)
                 pos[kept] = np.arange(len(kept))
-                frame = pd.DataFrame(dict(
+                frame = dict(
                     feed="current_source", ccs_n_i=int(s.npn_i), ccs_p_i=int(s.pnp_i), ref_i=int(d_i), ref_per_source=per,
                     standing_a=best[kept], ccs_mount=mount, ccs_package=s.package if mount == "heatsink" else "",
                     sink_devices=sink.n_dev + (2 * sink.channels if mount == "heatsink" else 0),
-                ))
+                )
                 # (family, row of ix) of every resistor option, by family and then row, as the families are listed.
-                fed = usable & (best > 0)
+                fed = (built & sound)[:, at] & (best > 0)
                 fam_at, row_at = [], []
                 for g, members in enumerate(series_members):
-                    ok = fed[g][None, :] & (power_w[members][:, None] >= RESISTOR_POWER_MARGIN * p_most[g][None, :])
+                    ok = fed[g][None, :] & (power_w[members][:, None] >= RESISTOR_POWER_MARGIN * p_most[g][at][None, :])
                     m_i, r_i = np.nonzero(ok)
                     fam_at.append(members[m_i])
                     row_at.append(r_i)
                 fam_at, row_at = np.concatenate(fam_at), np.concatenate(row_at)
                 order = np.argsort(fam_at, kind="stable")
                 fam_at, row_at = fam_at[order], row_at[order]
-                grp_at = group_of[fam_at]
+                grp_at, key_at = group_of[fam_at], at[row_at]
 
-                def options(fam_at=fam_at, row_at=row_at, grp_at=grp_at, pos=pos, r_e=r_e, r_ref=r_ref, p_e=p_e, p_ref=p_ref) -> pd.DataFrame:
-                    return pd.DataFrame(dict(
+                def options(fam_at=fam_at, row_at=row_at, grp_at=grp_at, key_at=key_at, pos=pos, r_e=r_e, r_ref=r_ref, p_e=p_e,
+                            p_ref=p_ref) -> dict:
+                    return dict(
                         row=pos[row_at], family=family[fam_at], kind="ccs_resistors",
-                        v1=r_e[grp_at, row_at], v2=r_ref[grp_at, row_at], p1_w=p_e[grp_at, row_at], p2_w=p_ref[grp_at, row_at],
-                    ))
+                        v1=r_e[grp_at, key_at], v2=r_ref[grp_at, key_at], p1_w=p_e[grp_at, key_at], p2_w=p_ref[grp_at, key_at],
+                    )
 
                 yield idx, frame, len(fam_at), options, (None if limits is None else limits[kept])
+
+
+@dataclass(frozen=True)
+class _FeedKeys:
+    """The distinct (required current, least current, rails) of the core configurations, and each configuration's.
+
+    Every figure of a current-source variant other than its masks depends on
+    a core configuration through these alone (its resistors, currents,
+    powers and free-air checks; model s.3 (a')), so each is computed once
+    per key and read back by row. The large benchmark catalogue's 70,776
+    configurations have 93 keys: one rail pair, and one current per output
+    pair's base drive.
+    """
+
+    i_req: np.ndarray  # per key: the current the sources are designed for [A]
+    i_need: np.ndarray  # per key: the least current that drives the base [A]
+    rail_min: np.ndarray  # per key [V]
+    rail_max: np.ndarray  # per key [V]
+    row_key: np.ndarray  # per core configuration: its key
+    first: np.ndarray  # per key: a configuration that has it
+
+    @classmethod
+    def of_rows(cls, i_req: np.ndarray, i_need: np.ndarray, rail_min: np.ndarray, rail_max: np.ndarray) -> _FeedKeys:
+        if not len(i_req):
+            empty = np.zeros(0)
+            return cls(empty, empty, empty, empty, np.zeros(0, np.int64), np.zeros(0, np.int64))
+        values, first, row_key = np.unique(np.column_stack([i_req, i_need, rail_min, rail_max]), axis=0,
+                                           return_index=True, return_inverse=True)
+        return cls(*(np.ascontiguousarray(v) for v in values.T), row_key.ravel(), first)
+
+    def present(self, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``(keys, at)``: the keys of ``rows`` ascending, and each row's place among them."""
+        held = np.zeros(len(self.first), dtype=bool)
+        held[self.row_key[rows]] = True
+        place = np.cumsum(held) - 1
+        return np.flatnonzero(held), place[self.row_key[rows]]
+
+    def device(self, dev: dict, keys: np.ndarray | None = None) -> dict:
+        """:func:`_ccs_device`'s figures with its per-row SOA limit taken per key (of ``keys``, all when None); it depends on the rail alone."""
+        first = self.first if keys is None else self.first[keys]
+        return {**dev, "soa_2vs_a": dev["soa_2vs_a"][first]}
 
 
 @dataclass
@@ -1080,17 +1163,20 @@ class _LowHeat:
     cols: dict[str, np.ndarray]  # the cores' _stage_columns
     rail_max: np.ndarray
     i_a: np.ndarray
-    outputs: np.ndarray  # [core, class] the output devices' limits with that heat
+    outputs: np.ndarray  # [core, class] the output devices' limits with that heat (laid out class by class)
+    heat: tuple[np.ndarray, ...]  # the cores' _source_heat at that current
 
     @classmethod
     def of(cls, spec: Spec, core: pd.DataFrame, sink: _Sink, cols: dict[str, np.ndarray] | None = None) -> _LowHeat:
         cols = cols if cols is not None else _stage_columns(core)
         _rail_min, rail_max, i_a, *_rest = _ccs_needs(spec, core)
-        return cls(cols, rail_max, i_a, _stage_rth(spec, cols, sink, sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)))
+        heat = _source_heat(cols, sink, rail_max, i_a)
+        outputs = np.ascontiguousarray(_stage_rth(spec, cols, sink, heat[2]).T).T
+        return cls(cols, rail_max, i_a, outputs, heat)
 
     def limits(self, spec: Spec, sink: _Sink, dev: dict) -> np.ndarray:
         """[core, class] with a pair ``dev`` of sources on the sink."""
-        return _ccs_sink_limits(spec, self.cols, sink, dev, self.rail_max, self.i_a, np.arange(len(self.i_a)), outputs=self.outputs)
+        return _ccs_sink_limits(spec, self.cols, sink, dev, self.rail_max, self.i_a, None, outputs=self.outputs, heat=self.heat)
 
 
 def feed_row_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores, bound: FeedBound, configs: pd.DataFrame) -> np.ndarray:
@@ -1107,12 +1193,13 @@ def feed_row_bounds(spec: Spec, pool: Pool, targets: Targets, cores: StageCores,
     small, _refs = _ccs_candidates(pool)
     low = _LowHeat.of(spec, cores.core, cores.sink) if bound.refined else None
     rail_max = cores.core["rail_max_v"].to_numpy(float)
+    points = _worst_points(rail_max)
     sub = configs.iloc[ccs]
     for (n_i, p_i), idx in sub.groupby(["ccs_n_i", "ccs_p_i"]).indices.items():
         s = next(x for x in small.itertuples(index=False) if int(x.npn_i) == n_i and int(x.pnp_i) == p_i)
         rows = ccs[idx]
         on_sink = (configs["ccs_mount"].to_numpy()[rows] == "heatsink")
-        dev = _ccs_device(s, spec, rail_max)
+        dev = _ccs_device(s, spec, rail_max, points)
         cost = bound.sink_cost(s, lambda: low.limits(spec, cores.sink, dev)) if low is not None and on_sink.any() else None
         for (d_i, per, mount), at in configs.iloc[rows].groupby(["ref_i", "ref_per_source", "ccs_mount"]).indices.items():
             b = bound.row_bound(s, int(d_i), int(per), targets.channels, cost if mount == "heatsink" else None)
@@ -1159,16 +1246,19 @@ def _candidate_rows(spec: Spec, pool: Pool, cores: StageCores):
         return
     small, refs = _ccs_candidates(pool)
     _rail_min, rail_max, i_need, i_req, compliance, span = _ccs_needs(spec, core)
+    points = _worst_points(rail_max)
+    keys = _FeedKeys.of_rows(i_req, i_need, _rail_min, rail_max)
     for s in small.itertuples(index=False):
-        dev = _ccs_device(s, spec, rail_max)
+        dev = _ccs_device(s, spec, rail_max, points)
         base = compliance & (soa.vceo_margin_v(dev["vceo_v"], span) >= 0)
         if not base.any():
             continue
         mounts = _source_mounts(s.package)
-        vbe_req = dev["vbe"](i_req)
-        free_ok = _ccs_thermal_ok(dev, "free_air", rail_max, i_need, spec.thermal.ambient_c) if "free_air" in mounts else None
+        vbe_key = dev["vbe"](keys.i_req)
+        free_ok = (_ccs_thermal_ok(keys.device(dev), "free_air", keys.rail_max, keys.i_need, spec.thermal.ambient_c)[keys.row_key]
+                   if "free_air" in mounts else None)
         for d_i, per, vref, _if_max in refs:
-            room = base & (vref - vbe_req >= CCS_MIN_RE_DROP_V)
+            room = base & (vref - vbe_key >= CCS_MIN_RE_DROP_V)[keys.row_key]
             for mount in mounts:
                 yield s, dev, d_i, per, mount, (room & free_ok if mount == "free_air" else room)
 
@@ -1220,16 +1310,27 @@ def _too_many_feeds(mode: str, n_core: int, pool: Pool) -> str:
     )
 
 
-def _ccs_device(s, spec: Spec, rail_max: np.ndarray) -> dict:
+def _worst_points(rail_max: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``(vce, of_row)``: the distinct ``Vce = 2 Vs_max`` of the rows' ``rail_max`` ascending, and each row's index into them.
+
+    What :func:`_ccs_device` needs of the rails; a caller that asks for many
+    source pairs over the same rows computes it once (on a large catalogue
+    the rows run to tens of thousands and the pairs to hundreds).
+    """
+    return np.unique(2.0 * np.asarray(rail_max, float), return_inverse=True)
+
+
+def _ccs_device(s, spec: Spec, rail_max: np.ndarray, points: tuple[np.ndarray, np.ndarray] | None = None) -> dict:
     """The worse of a current-source pair's two devices, figure by figure.
 
     ``soa_2vs_a``: its SOA current limit at ``Vce = 2 Vs_max`` for each row's
     ``rail_max`` (its worst point), computed once per distinct rail.
+    ``points``: :func:`_worst_points` of ``rail_max``, when the caller has it.
     """
     pick = lambda name, f: f(getattr(s, name + "_n"), getattr(s, name + "_p"))  # noqa: E731
     curves = [(np.array(getattr(s, "soa_v" + x)), np.array(getattr(s, "soa_a" + x))) if len(getattr(s, "soa_v" + x)) else None for x in ("_n", "_p")]
     bp_v, bp_a = soa.pad_curves(curves)
-    vce, of_row = np.unique(2.0 * np.asarray(rail_max, float), return_inverse=True)
+    vce, of_row = _worst_points(rail_max) if points is None else points
     tj_max = pick("tj_max_c", min)
     return dict(
         vbe=lambda i: np.maximum(swing.vbe_at_v(s.vbe_on_v_n, s.vbe_on_at_a_n, i), swing.vbe_at_v(s.vbe_on_v_p, s.vbe_on_at_a_p, i)),
@@ -1267,34 +1368,56 @@ def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray
     return (tj <= dev["tj_limit_c"]) & (_ccs_soa_util(dev, i_a) <= derate)
 
 
+def _source_heat(core: dict[str, np.ndarray], sink: _Sink, rail_max: np.ndarray, i_a: np.ndarray,
+                 rows: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
+    """What sources on the sink put there, row by row, whatever the source pair: ``(rail_max, i_a, extra, p_sink, p_t)`` of ``rows`` (all when None).
+
+    ``extra``: the channels' sources' heat on the sink; ``p_sink``: the sink's
+    whole heat with the output devices'; ``p_t``: one source transistor's [W].
+    """
+    if rows is not None:
+        rail_max, i_a = rail_max[rows], i_a[rows]
+    extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
+    p_device = core["p_device_w"] if rows is None else core["p_device_w"][rows]
+    p_sink = sink.n_dev * p_device + extra
+    return rail_max, i_a, extra, p_sink, swing.ccs_transistor_dissipation_w(rail_max, i_a)
+
+
 def _ccs_sink_limits(spec: Spec, core: dict[str, np.ndarray], sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
-                     rows: np.ndarray, outputs: np.ndarray | None = None) -> np.ndarray:
-    """Largest Rth_sa per mounting class with the current sources on the sink [row of ``rows``, class].
+                     rows: np.ndarray | None, outputs: np.ndarray | None = None, heat: tuple[np.ndarray, ...] | None = None) -> np.ndarray:
+    """Largest Rth_sa per mounting class with the current sources on the sink [row of ``rows`` (all when None), class].
 
     ``core``: the core configurations' :func:`_stage_columns`. ``outputs``:
     the output devices' part, when the caller has it for these rows and
-    currents (it does not depend on the source pair).
+    currents (it does not depend on the source pair), and ``heat`` the rows'
+    :func:`_source_heat` likewise.
 
     The output devices' limits with the sources' heat added to the sink, and
     the source transistor's own junction and SOA at its case temperature.
+    The result is laid out class by class (a transposed array): a class's
+    limits of every row lie together, as :meth:`SinkCosts.least` reads them.
     """
     amb = spec.thermal.ambient_c
-    util = _ccs_soa_util(dev, i_a)[rows]
-    rail_max, i_a = rail_max[rows], i_a[rows]
-    extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
+    soa_a = dev["soa_2vs_a"] if rows is None else dev["soa_2vs_a"][rows]
+    _rail, _i, extra, p_sink, p_t = heat if heat is not None else _source_heat(core, sink, rail_max, i_a, rows)
+    util = _ccs_soa_util({"soa_2vs_a": soa_a}, _i)
     if outputs is None:
         outputs = _stage_rth(spec, core, sink, extra, rows)
-    p_sink = sink.n_dev * core["p_device_w"][rows] + extra
-    p_t = swing.ccs_transistor_dissipation_w(rail_max, i_a)
-    own = []
-    for c in sink.classes:
-        rth_cs = float(thermal.rth_cs_default_k_w(dev["package"])) if math.isnan(c) else c
-        with np.errstate(divide="ignore", invalid="ignore"):
+    tj_max = dev["tj_max_c"]
+    out = np.empty((len(sink.classes), len(p_t)))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        # The case temperature the SOA allows, less the ambient (no class in it).
+        soa_room = tj_max - util * (tj_max - 25.0) - amb
+        past_soa = ~(util <= 1.0)
+        for c_i, c in enumerate(sink.classes):
+            rth_cs = float(thermal.rth_cs_default_k_w(dev["package"])) if math.isnan(c) else c
             by_tj = thermal.required_rth_sa_k_w(dev["tj_limit_c"], amb, p_t, dev["rth_jc_k_w"], rth_cs, p_sink)
-            tc_soa = dev["tj_max_c"] - util * (dev["tj_max_c"] - 25.0)
-            by_soa = np.where(util <= 1.0, (tc_soa - amb - p_t * rth_cs) / p_sink, -np.inf)
-        own.append(np.minimum(by_tj, by_soa))
-    return np.minimum(outputs, np.stack(own, axis=1))
+            by_soa = (soa_room - p_t * rth_cs) / p_sink
+            by_soa[past_soa] = -np.inf
+            limit = out[c_i]
+            np.minimum(by_tj, by_soa, out=limit)
+            np.minimum(outputs[:, c_i], limit, out=limit)
+    return out.T
 
 
 def _feed_note(row: dict, ex: _Explainer) -> str:

@@ -177,11 +177,11 @@ def _grid_for(
     x: NDArray[np.float64], name: str, lo: float | None, hi: float | None
 ) -> NDArray[np.float64]:
     """Series values in [lo, hi], or a decade beyond the positive finite x when unbounded."""
+    if lo is not None and hi is not None:
+        return _bounded_values(name, float(lo), float(hi))
     finite = x[np.isfinite(x) & (x > 0.0)]
     span_lo = float(finite.min()) / 10.0 if finite.size else 1.0
     span_hi = float(finite.max()) * 10.0 if finite.size else 10.0
-    if lo is not None and hi is not None:
-        return _bounded_values(name, float(lo), float(hi))
     lo_v = span_lo if lo is None else lo
     hi_v = span_hi if hi is None else hi
     if lo is None:  # one-sided bound: keep the open side wide enough to reach it

@@ -297,6 +297,40 @@ def test_every_family_of_a_series_and_range_gets_the_current_source_options_its_
     assert checked > len(opts)  # some families were rightly left out
 
 
+def test_each_current_source_option_has_the_emitter_resistor_of_its_own_configuration(bench):
+    """Every current-source option's R_E, worked out from its own row by the model's formulas (s.3 (a')).
+
+    The table computes these figures once per (design current, least current,
+    rails) and reads them back by row; here each row is worked out alone:
+    I = max(1.5 Ib_pk, 5 mA) (common practice), Vbe of the worse device at I
+    (s.13), R_E = (Vref - Vbe) / I, then the largest value of the family's
+    E-series range at or below it (IEC 60063 values). The demo's rows hold
+    several base currents, so rows of different keys are compared.
+    """
+    from partpick.evaluate.stage import CCS_MIN_CURRENT_A
+
+    spec, pool, _targets, st = bench
+    ccs = st.configs[st.configs["feed"] == "current_source"]
+    assert ccs["ib_peak_a"].nunique() > 1
+    opts = st.feed_options[st.feed_options["kind"] == "ccs_resistors"]
+    rows = st.configs.iloc[opts["k"].to_numpy()]
+    assert (rows["feed"] == "current_source").all()
+    tr, di = pool.transistors, pool.diodes
+    fams = pool.passives.set_index("family")
+    checked = 0
+    for (_i, o), (_j, r) in zip(opts.iterrows(), rows.iterrows()):
+        i_req = max(swing.ccs_current_required_a(r["ib_peak_a"]), CCS_MIN_CURRENT_A)
+        vbe = max(float(swing.vbe_at_v(tr.at[int(r[c]), "vbe_on_v"], tr.at[int(r[c]), "vbe_on_at_a"], i_req))
+                  for c in ("ccs_n_i", "ccs_p_i"))
+        vref = int(r["ref_per_source"]) * float(di.at[int(r["ref_i"]), "vf_v"])
+        fam = fams.loc[o["family"]]
+        r_e = float(eseries.next_down(swing.ccs_emitter_resistor_ohm(vref, vbe, i_req), fam["series"],
+                                      fam["value_min"], fam["value_max"]))
+        assert o["v1"] == pytest.approx(r_e, rel=1e-12), (o["k"], o["family"])
+        checked += 1
+    assert checked == len(opts) > 100
+
+
 def test_bias_resistor_families_of_one_series_differ_only_by_their_power_rating(catalog):
     """The resistor feed's R1 options of families that share an E-series and value range (computed once per range).
 
