@@ -951,16 +951,27 @@ class _Pieces:
             self.columns = list(values)
         for c in self.columns:
             v = values[c]
-            self.parts[c].append(v if isinstance(v, np.ndarray) else np.full(n, v, dtype=object if isinstance(v, str) else None))
+            if isinstance(v, str):
+                # fill() keeps the one str object; np.full would make a copy of it per row.
+                column = np.empty(n, dtype=object)
+                column.fill(v)
+            else:
+                column = v if isinstance(v, np.ndarray) else np.full(n, v)
+            self.parts[c].append(column)
         self.length += n
 
     def frame(self) -> pd.DataFrame:
         if not self.parts[self.columns[0]]:
             return pd.DataFrame(columns=self.columns)
-        cols = {c: np.concatenate(self.parts[c]) for c in self.columns}
-        frame = pd.DataFrame(cols)
+        cols = {}
+        for c in self.columns:
+            # Each column's pieces are let go as it is joined: the whole table is not held twice over.
+            cols[c] = np.concatenate(self.parts[c])
+            self.parts[c] = []
         # A text column of no rows: text all the same, as a piece's frame makes of its scalar.
         empty_text = {c: "str" for c, a in cols.items() if a.dtype == object and not len(a)}
+        frame = pd.DataFrame(cols, copy=False)
+        del cols
         return frame.astype(empty_text) if empty_text else frame
 
 

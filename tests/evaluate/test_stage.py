@@ -390,3 +390,30 @@ def _assert_e12(values: np.ndarray) -> None:
     assert len(values) > 0 and np.isfinite(values).all()
     mantissa = np.round(values / 10 ** np.floor(np.log10(values)) * 10).astype(int)
     assert set(mantissa) <= {10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82}
+
+
+def test_pieces_make_the_frame_that_joining_each_piece_s_frame_makes():
+    """The feed table's pieces, joined as arrays, against pandas' concatenation of one frame per piece (the
+    columns' order, types and values), with the first piece naming the order; a text scalar is one shared str."""
+    import pandas as pd
+
+    from partpick.evaluate.stage import _Pieces
+
+    pieces = [
+        dict(k=np.array([0, 1]), family="F1", kind="bias_resistor", v1=np.array([1.0, 2.0]), v2=np.nan),
+        dict(family=np.array(["F2", "F3", "F2"], dtype=object), kind="ccs_resistors", v1=np.array([3.0, 4.0, 5.0]),
+             v2=np.array([6.0, 7.0, 8.0]), k=np.array([2, 3, 4])),
+        dict(k=np.zeros(0, dtype=int), family="F4", kind="bias_resistor", v1=np.zeros(0), v2=np.nan),
+    ]
+    joined = _Pieces(["family", "kind", "v1", "v2", "k"])
+    for p in pieces:
+        joined.add(len(p["v1"]), **p)
+    kind_column = joined.parts["kind"][1]
+    assert all(x is kind_column[0] for x in kind_column)
+    expected = pd.concat([pd.DataFrame(p) for p in pieces], ignore_index=True)
+    pd.testing.assert_frame_equal(joined.frame(), expected, check_exact=True)
+    assert list(expected.columns) == ["k", "family", "kind", "v1", "v2"]
+
+    nothing = _Pieces(["k", "family"])
+    nothing.add(0, k=np.zeros(0, dtype=int), family="F1")
+    pd.testing.assert_frame_equal(nothing.frame(), pd.DataFrame(dict(k=np.zeros(0, dtype=int), family="F1")))
