@@ -1256,9 +1256,9 @@ def _candidate_rows(spec: Spec, pool: Pool, cores: StageCores):
     if core is None or spec.stage.bias_feed == "resistor":
         return
     small, refs = _ccs_candidates(pool)
-    _rail_min, rail_max, i_need, i_req, compliance, span = _ccs_needs(spec, core)
+    rail_min, rail_max, i_need, i_req, compliance, span = _ccs_needs(spec, core)
     points = _worst_points(rail_max)
-    keys = _FeedKeys.of_rows(i_req, i_need, _rail_min, rail_max)
+    keys = _FeedKeys.of_rows(i_req, i_need, rail_min, rail_max)
     for s in small.itertuples(index=False):
         dev = _ccs_device(s, spec, rail_max, points)
         base = compliance & (soa.vceo_margin_v(dev["vceo_v"], span) >= 0)
