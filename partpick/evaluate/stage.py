@@ -946,7 +946,7 @@ class _Pieces:
         self.length = 0
 
     def add(self, n: int, **values) -> None:
-        if not self.length and not self.parts[self.columns[0]]:
+        if not self.parts[self.columns[0]]:  # the first piece names the order
             assert set(values) == set(self.columns), sorted(values)
             self.columns = list(values)
         for c in self.columns:
@@ -1052,7 +1052,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
             # The figures below depend on a row only through its key: one
             # column per key present in ix (``at`` maps ix's rows to them).
             present, at = keys.present(ix)
-            dev_ix = keys.device(dev, present)
+            dev_key = keys.device(dev, present)
             r_min, r_max, need = keys.rail_min[present], keys.rail_max[present], keys.i_need[present]
             # One row per (E-series, value range) group, one column per key.
             r_e_wanted = swing.ccs_emitter_resistor_ohm(vref, vbe_key[present], keys.i_req[present])
@@ -1072,7 +1072,7 @@ def _ccs_variants(spec: Spec, pool: Pool, targets: Targets, core: pd.DataFrame, 
             p_most = np.maximum(p_e, p_ref)
             # A group's families differ only by rating: some family of it fits where its strongest one does.
             fits = built & (RESISTOR_POWER_MARGIN * p_most <= strongest[:, None])
-            free_air_ok = _ccs_thermal_ok(dev_ix, "free_air", r_max, i_act, amb) if "free_air" in mounts else None
+            free_air_ok = _ccs_thermal_ok(dev_key, "free_air", r_max, i_act, amb) if "free_air" in mounts else None
             for mount in mounts:
                 # In free air each source's junction and SOA must hold; on the sink they join the sink limits.
                 sound = free_air_ok if mount == "free_air" else True
@@ -1143,12 +1143,15 @@ class _FeedKeys:
 
     @classmethod
     def of_rows(cls, i_req: np.ndarray, i_need: np.ndarray, rail_min: np.ndarray, rail_max: np.ndarray) -> _FeedKeys:
-        if not len(i_req):
-            empty = np.zeros(0)
-            return cls(empty, empty, empty, empty, np.zeros(0, np.int64), np.zeros(0, np.int64))
-        values, first, row_key = np.unique(np.column_stack([i_req, i_need, rail_min, rail_max]), axis=0,
-                                           return_index=True, return_inverse=True)
-        return cls(*(np.ascontiguousarray(v) for v in values.T), row_key.ravel(), first)
+        columns = [np.asarray(c, float) for c in (i_req, i_need, rail_min, rail_max)]
+        # Each row's rank among the distinct rows in lexicographic order, one column at a
+        # time and kept dense (no overflow); far faster than np.unique over rows (axis=0).
+        code = np.zeros(len(i_req), dtype=np.int64)
+        for c in columns:
+            values, of = np.unique(c, return_inverse=True)
+            code = np.unique(code * len(values) + of.ravel(), return_inverse=True)[1].ravel()
+        _keys, first, row_key = np.unique(code, return_index=True, return_inverse=True)
+        return cls(*(c[first] for c in columns), row_key.ravel(), first)
 
     def present(self, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """``(keys, at)``: the keys of ``rows`` ascending, and each row's place among them."""
@@ -1182,7 +1185,7 @@ class _LowHeat:
         cols = cols if cols is not None else _stage_columns(core)
         _rail_min, rail_max, i_a, *_rest = _ccs_needs(spec, core)
         heat = _source_heat(cols, sink, rail_max, i_a)
-        outputs = np.ascontiguousarray(_stage_rth(spec, cols, sink, heat[2]).T).T
+        outputs = np.ascontiguousarray(_stage_rth(spec, cols, sink, heat[0]).T).T
         return cls(cols, rail_max, i_a, outputs, heat)
 
     def limits(self, spec: Spec, sink: _Sink, dev: dict) -> np.ndarray:
@@ -1381,7 +1384,7 @@ def _ccs_thermal_ok(dev: dict, mount: str, rail_max: np.ndarray, i_a: np.ndarray
 
 def _source_heat(core: dict[str, np.ndarray], sink: _Sink, rail_max: np.ndarray, i_a: np.ndarray,
                  rows: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
-    """What sources on the sink put there, row by row, whatever the source pair: ``(rail_max, i_a, extra, p_sink, p_t)`` of ``rows`` (all when None).
+    """What sources on the sink put there, row by row, whatever the source pair: ``(extra, p_sink, p_t)`` of ``rows`` (all when None).
 
     ``extra``: the channels' sources' heat on the sink; ``p_sink``: the sink's
     whole heat with the output devices'; ``p_t``: one source transistor's [W].
@@ -1391,7 +1394,7 @@ def _source_heat(core: dict[str, np.ndarray], sink: _Sink, rail_max: np.ndarray,
     extra = sink.channels * swing.ccs_pair_sink_heat_w(rail_max, i_a)
     p_device = core["p_device_w"] if rows is None else core["p_device_w"][rows]
     p_sink = sink.n_dev * p_device + extra
-    return rail_max, i_a, extra, p_sink, swing.ccs_transistor_dissipation_w(rail_max, i_a)
+    return extra, p_sink, swing.ccs_transistor_dissipation_w(rail_max, i_a)
 
 
 def _ccs_sink_limits(spec: Spec, core: dict[str, np.ndarray], sink: _Sink, dev: dict, rail_max: np.ndarray, i_a: np.ndarray,
@@ -1409,9 +1412,9 @@ def _ccs_sink_limits(spec: Spec, core: dict[str, np.ndarray], sink: _Sink, dev: 
     limits of every row lie together, as :meth:`SinkCosts.least` reads them.
     """
     amb = spec.thermal.ambient_c
-    soa_a = dev["soa_2vs_a"] if rows is None else dev["soa_2vs_a"][rows]
-    _rail, _i, extra, p_sink, p_t = heat if heat is not None else _source_heat(core, sink, rail_max, i_a, rows)
-    util = _ccs_soa_util({"soa_2vs_a": soa_a}, _i)
+    soa_a, i_rows = (dev["soa_2vs_a"], i_a) if rows is None else (dev["soa_2vs_a"][rows], i_a[rows])
+    util = _ccs_soa_util({"soa_2vs_a": soa_a}, i_rows)
+    extra, p_sink, p_t = heat if heat is not None else _source_heat(core, sink, rail_max, i_a, rows)
     if outputs is None:
         outputs = _stage_rth(spec, core, sink, extra, rows)
     tj_max = dev["tj_max_c"]
