@@ -47,6 +47,8 @@ class SolverError(Exception):
 class SolverTimeout(SolverError):
     """The time limit ran out before the solver found any design (neither feasible nor infeasible is known)."""
 
-    def __init__(self, time_limit: float):
-        super().__init__(f"the solver found no design within the time limit of {time_limit:g} s; allow more time")
+    def __init__(self, time_limit: float, hint: str = ""):
+        more = f", or {hint}" if hint else ""
+        super().__init__(f"the solver found no design within the time limit of {time_limit:g} s; allow more time{more}")
         self.time_limit = time_limit
+        self.hint = hint

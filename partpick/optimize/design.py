@@ -43,6 +43,15 @@ RELAXED_ROWS_MAX = 400_000
 #: (the resistor feed's optimum is 132.06) and had not proven it after 120 s.
 #: The shipped desk example at 0.5 W has 32,696 x 12.
 UNTIMED_CELLS_MAX = 20_000_000
+
+#: What a search past the size limit that found no design in time suggests
+#: besides more time, when the spec lets partpick choose the feed: the
+#: resistor feed alone has no current-source variants to search by cost bound
+#: (the large benchmark catalogue: proven in about 11 s, where the automatic
+#: feed's search finds nothing within 20 s).
+RESISTOR_HINT = ('set bias_feed = "resistor" under [stage] in the spec: the current-source feed has more stage '
+                 'configurations here than one run holds, and searching them by cost bound takes the time')
+
 #: Growth of :func:`run_bounded`'s threshold above the least bound after a round without a design.
 BOUND_GROWTH = 2.0
 #: Current-source rows (counted by :func:`~partpick.evaluate.stage.candidate_bounds`) the
@@ -357,6 +366,7 @@ def run_bounded(
     search it bounds. ``given``: the pool, targets and core configurations
     of this spec, catalogue and exclusions, when the caller has them.
     """
+    from partpick.errors import SolverTimeout
     from partpick.optimize.milp import _clock
 
     started = _clock() if started is None else started
@@ -366,7 +376,14 @@ def run_bounded(
         # No design even fed by nothing, so none at all; the whole table, which
         # says why configuration by configuration, is too large to build.
         raise too_large or SizeLimitError("no design, and too many stage configurations to say why")
-    return _bounded_rounds(spec, pool, targets, search, solver=solver, forced=forced, time_limit=time_limit, started=started)
+    try:
+        return _bounded_rounds(spec, pool, targets, search, solver=solver, forced=forced, time_limit=time_limit,
+                               started=started)
+    except SolverTimeout as exc:
+        if too_large is None or spec.stage.bias_feed != "auto" or exc.hint:
+            raise
+        raise SolverTimeout(exc.time_limit, RESISTOR_HINT) from None
+
 
 
 def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: str = "cbc", time_limit: float | None = None,

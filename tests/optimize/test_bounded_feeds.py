@@ -12,7 +12,7 @@ import pytest
 from conftest import DEMO_CATALOG, ROOT
 
 from partpick.catalog import load_catalog
-from partpick.errors import SizeLimitError
+from partpick.errors import SizeLimitError, SolverTimeout
 from partpick.evaluate import stage
 from partpick.evaluate.context import Targets, make_pool
 from partpick.optimize import design
@@ -313,6 +313,44 @@ def test_the_command_designs_past_the_limit_and_says_how(catalog, monkeypatch, t
     assert any("whose cost bound is at or below" in w for w in rep["warnings"])
     assert rep["design"]["bias_feed_alternative"] == other_feed  # the chosen feed is the resistor: the other one designed bounded
     assert "still the cheapest of the whole catalogue" in " ".join(out.out.split())
+
+
+def _out_of_time(*_args, **_kwargs):
+    """Every solve runs out of time before it finds a design."""
+    raise SolverTimeout(600.0)
+
+
+def test_a_search_past_the_limit_without_a_design_in_time_names_the_resistor_feed(catalog, monkeypatch, tmp_path,
+                                                                                  capsys) -> None:
+    """Out of time with no design: past the size limit with the automatic feed the message also names the resistor feed.
+
+    Not when the whole table fits (more time is the whole answer), nor when
+    the spec fixes the current-source feed (the resistor feed would be
+    another design than the one asked for). The command says it in one line,
+    exit 1, without a traceback.
+    """
+    from partpick.cli import main
+
+    no_more = "the solver found no design within the time limit of 600 s; allow more time"
+    monkeypatch.setattr(design, "_forced_finish", _out_of_time)
+    with pytest.raises(SolverTimeout) as fits:
+        run(_bench(20.0), catalog, time_limit=600.0)
+    assert str(fits.value) == no_more
+    monkeypatch.setattr(stage, "STAGE_ROWS_MAX", 1000)  # the whole table has 2,901 rows
+    with pytest.raises(SolverTimeout) as auto:
+        run(_bench(20.0), catalog, time_limit=600.0)
+    assert str(auto.value) == f"{no_more}, or {design.RESISTOR_HINT}"
+    assert auto.value.time_limit == 600.0
+    with pytest.raises(SolverTimeout) as fixed:
+        run(_bench(22.0, bias_feed="current_source"), catalog, time_limit=600.0)
+    assert str(fixed.value) == no_more
+    spec_file = tmp_path / "bench20.toml"
+    spec_file.write_text((EXAMPLES / "bench_2x25w_split.toml").read_text(encoding="utf-8").replace("power_w = 25.0", "power_w = 20.0"), encoding="utf-8")
+    code = main(["--no-color", "design", str(spec_file), "--catalog", str(DEMO_CATALOG), "--time-limit", "600"])
+    out = capsys.readouterr()
+    assert code == 1
+    assert "Traceback" not in out.out + out.err
+    assert 'set bias_feed = "resistor" under [stage] in the spec' in " ".join(out.err.split())
 
 
 def _tables(spec, catalog, core_lb_of, threshold):
