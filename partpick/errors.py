@@ -51,4 +51,3 @@ class SolverTimeout(SolverError):
         more = f", or {hint}" if hint else ""
         super().__init__(f"the solver found no design within the time limit of {time_limit:g} s; allow more time{more}")
         self.time_limit = time_limit
-        self.hint = hint

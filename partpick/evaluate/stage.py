@@ -66,6 +66,8 @@ CCS_MAX_IC_A = 2.0
 #: configurations by every small pair and reference the catalogue holds).
 STAGE_ROWS_MAX = 400_000
 FEED_OPTIONS_MAX = 4_000_000
+#: What a run past those limits suggests first when the spec lets partpick choose the feed.
+RESISTOR_FEED_FIX = 'set bias_feed = "resistor" under [stage] in the spec'
 
 
 @dataclass
@@ -1314,7 +1316,7 @@ def _ccs_candidates(pool: Pool) -> tuple[pd.DataFrame, list[tuple[int, int, floa
 def _too_many_feeds(mode: str, n_core: int, pool: Pool) -> str:
     """Why a run stops at :data:`STAGE_ROWS_MAX`, with the numbers and what to change."""
     small, refs = _ccs_candidates(pool)
-    fix = 'set bias_feed = "resistor" under [stage] in the spec, or ' if mode == "auto" else ""
+    fix = f"{RESISTOR_FEED_FIX}, or " if mode == "auto" else ""
     return (
         f"the current-source bias feed gives more than {STAGE_ROWS_MAX:,} stage configurations "
         f"or {FEED_OPTIONS_MAX:,} feed-resistor options: "

@@ -49,8 +49,8 @@ UNTIMED_CELLS_MAX = 20_000_000
 #: resistor feed alone has no current-source variants to search by cost bound
 #: (the large benchmark catalogue: proven in about 11 s, where the automatic
 #: feed's search finds nothing within 20 s).
-RESISTOR_HINT = ('set bias_feed = "resistor" under [stage] in the spec: the current-source feed has more stage '
-                 'configurations here than one run holds, and searching them by cost bound takes the time')
+RESISTOR_HINT = (f"{stage_rules.RESISTOR_FEED_FIX}: the current-source feed has more stage configurations here "
+                 "than one run holds, and searching them by cost bound takes the time")
 
 #: Growth of :func:`run_bounded`'s threshold above the least bound after a round without a design.
 BOUND_GROWTH = 2.0
@@ -380,10 +380,9 @@ def run_bounded(
         return _bounded_rounds(spec, pool, targets, search, solver=solver, forced=forced, time_limit=time_limit,
                                started=started)
     except SolverTimeout as exc:
-        if too_large is None or spec.stage.bias_feed != "auto" or exc.hint:
+        if spec.stage.bias_feed != "auto":
             raise
         raise SolverTimeout(exc.time_limit, RESISTOR_HINT) from None
-
 
 
 def design_without(result: DesignResult, sources: tuple[str, ...], *, solver: str = "cbc", time_limit: float | None = None,
